@@ -1,0 +1,5 @@
+//! octocut: from a triangulated surface (STL) to a cut-cell octree volume mesh.
+//!
+//! This facade wires the stages: surface intake, octree, cut cells, volume mesh, writers.
+
+pub use octocut_surface as surface;

@@ -1,0 +1,29 @@
+//! Surface intake: the first stage of the octocut pipeline.
+//!
+//! A [`Surface`] is a tagged triangle set (f64 vertices, `u32` indices, one surface tag per
+//! triangle). A [`SurfaceIndex`] owns a surface and answers the geometric questions every later
+//! stage asks: which triangles overlap a box, the closest surface point, where a segment crosses
+//! the surface, and whether a point is fluid or solid (generalized winding number).
+//!
+//! ```
+//! use octocut_surface::{Surface, SurfaceIndex, Vec3, Aabb};
+//! // a unit cube made of 12 triangles, outward oriented
+//! let s = Surface::unit_cube();
+//! let index = SurfaceIndex::new(s);
+//! assert!(index.winding_number(Vec3::splat(0.5)) > 0.99);
+//! assert!(index.winding_number(Vec3::splat(2.0)).abs() < 1e-9);
+//! let mut hits = Vec::new();
+//! index.triangles_in_box(&Aabb::new(Vec3::splat(-0.1), Vec3::splat(0.1)), &mut hits);
+//! assert!(!hits.is_empty());
+//! ```
+
+pub mod geom;
+pub mod index;
+pub mod predicates;
+pub mod surface;
+pub mod tribox;
+pub mod winding;
+
+pub use geom::{Aabb, Vec3};
+pub use index::{SegmentHit, SurfaceIndex, SurfacePoint};
+pub use surface::{Surface, TagId};

@@ -1,0 +1,1 @@
+//! Writers: the last stage of the pipeline, turning a volume mesh into files.

@@ -1,0 +1,1 @@
+//! End-to-end and reference checks: one integration binary, one module per topic.
