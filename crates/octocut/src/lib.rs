@@ -2,4 +2,7 @@
 //!
 //! This facade wires the stages: surface intake, octree, cut cells, volume mesh, writers.
 
+pub mod spec;
+
 pub use octocut_surface as surface;
+pub use spec::{CaseSpec, SpecError};

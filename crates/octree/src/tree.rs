@@ -83,7 +83,9 @@ impl Octree {
         }
         let region = OctKey::new(b, k.level());
         let lo = self.leaves.partition_point(|x| *x < region);
-        if lo < self.leaves.len() && (self.leaves[lo] == region || region.is_ancestor_of(&self.leaves[lo])) {
+        if lo < self.leaves.len()
+            && (self.leaves[lo] == region || region.is_ancestor_of(&self.leaves[lo]))
+        {
             // same size or finer: the descendants of `region` touching the shared feature
             let end = region.last_descendant_morton();
             let mut i = lo;
@@ -117,10 +119,22 @@ impl Octree {
                 return Err(format!("leaf {i} overlaps leaf {}", i + 1));
             }
         }
-        let vol: u128 = self.leaves.iter().map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32)).sum();
-        let want: u128 = self.domain.counts.iter().map(|&c| c as u128).product::<u128>() << (3 * MAX_DEPTH as u32);
+        let vol: u128 = self
+            .leaves
+            .iter()
+            .map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32))
+            .sum();
+        let want: u128 = self
+            .domain
+            .counts
+            .iter()
+            .map(|&c| c as u128)
+            .product::<u128>()
+            << (3 * MAX_DEPTH as u32);
         if vol != want {
-            return Err(format!("leaf volumes sum to {vol} finest cells, the box holds {want}"));
+            return Err(format!(
+                "leaf volumes sum to {vol} finest cells, the box holds {want}"
+            ));
         }
         Ok(())
     }
