@@ -20,6 +20,7 @@
 pub mod geom;
 pub mod index;
 pub mod predicates;
+pub mod shapes;
 pub mod surface;
 pub mod tribox;
 pub mod winding;
