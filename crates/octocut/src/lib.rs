@@ -2,7 +2,9 @@
 //!
 //! This facade wires the stages: surface intake, octree, cut cells, volume mesh, writers.
 
+pub mod report;
 pub mod spec;
+pub mod stages;
 
 pub use octocut_surface as surface;
 pub use spec::{CaseSpec, SpecError};
