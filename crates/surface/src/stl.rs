@@ -433,3 +433,169 @@ pub fn to_ascii_stl(surface: &Surface) -> String {
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::{RngExt, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    const ONE_FACET: &str = "solid a\nfacet normal 0 0 1\nouter loop\nvertex 0 0 0\nvertex 1 0 0\nvertex 0 1 0\nendloop\nendfacet\nendsolid a\n";
+
+    #[test]
+    fn binary_round_trip_and_solid_header() {
+        let cube = Surface::unit_cube();
+        // a binary file whose header starts with "solid" is still binary (size check first)
+        let bytes = to_binary_stl(&cube, "solid cube exported as binary");
+        let s = parse_stl(&bytes, "dir/box.stl").unwrap();
+        assert_eq!(s.triangles.len(), 12);
+        assert_eq!(s.tag_names, vec!["box".to_string()]);
+        for t in 0..12 {
+            assert_eq!(s.corners(t), cube.corners(t));
+        }
+    }
+
+    #[test]
+    fn ascii_blocks_names_and_leniency() {
+        let three = format!(
+            "{}{}{}",
+            ONE_FACET,
+            ONE_FACET.replace(" a\n", " b\n"),
+            ONE_FACET.replace(" a\n", "\n")
+        );
+        let s = parse_stl(three.as_bytes(), "part.stl").unwrap();
+        assert_eq!(s.tag_names, vec!["a", "b", "part"]);
+        assert_eq!(s.tags, vec![TagId(0), TagId(1), TagId(2)]);
+        // CRLF, tabs, upper case, a normal without values, f64 precision kept
+        let loose = "SOLID\r\n\tFACET NORMAL\r\n OUTER LOOP\r\n\tVERTEX 0.1000000000000001 0 0\r\n VERTEX 1 0 0\r\n vertex 0 1 0\r\n ENDLOOP\r\nENDFACET\r\nENDSOLID\r\n";
+        let s = parse_stl(loose.as_bytes(), "x.stl").unwrap();
+        assert_eq!(s.vertices[0].x, 0.1000000000000001);
+        assert_eq!(s.tag_names, vec!["x"]);
+        // two unnamed and a repeated name
+        let twice = format!(
+            "{}{}",
+            ONE_FACET.replace(" a\n", "\n"),
+            ONE_FACET.replace(" a\n", "\n")
+        );
+        assert_eq!(
+            parse_stl(twice.as_bytes(), "w.stl").unwrap().tag_names,
+            vec!["w", "w.2"]
+        );
+        // ascii round trip
+        let t = Surface::torus(2.0, 0.5, 6, 4);
+        let back = parse_stl(to_ascii_stl(&t).as_bytes(), "t.stl").unwrap();
+        assert_eq!(back.vertices, t.to_soup().vertices);
+    }
+
+    #[test]
+    fn error_positions() {
+        let bad = ONE_FACET.replace("vertex 1 0 0", "vertex 1 zero 0");
+        let e = parse_stl(bad.as_bytes(), "f.stl").unwrap_err();
+        assert!(
+            matches!(
+                e,
+                SurfaceError::Syntax {
+                    at: Position::Line {
+                        line: 5,
+                        column: 10
+                    },
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        let nan = ONE_FACET.replace("vertex 1 0 0", "vertex 1 nan 0");
+        let e = parse_stl(nan.as_bytes(), "f.stl").unwrap_err();
+        assert!(
+            matches!(
+                e,
+                SurfaceError::NonFinite {
+                    at: Position::Line { line: 5, .. },
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        let cut = &ONE_FACET[..ONE_FACET.find("endloop").unwrap()];
+        let e = parse_stl(cut.as_bytes(), "f.stl").unwrap_err();
+        assert!(matches!(e, SurfaceError::Truncated { .. }), "{e}");
+        let mut bin = to_binary_stl(&Surface::unit_cube(), "x");
+        bin.pop();
+        let e = parse_stl(&bin, "f.stl").unwrap_err();
+        assert!(
+            matches!(
+                e,
+                SurfaceError::CountMismatch {
+                    count: 12,
+                    expected: 684,
+                    actual: 683,
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        let mut bin = to_binary_stl(&Surface::unit_cube(), "x");
+        bin[84 + 50 + 12 + 4..84 + 50 + 12 + 8].copy_from_slice(&f32::INFINITY.to_le_bytes());
+        let e = parse_stl(&bin, "f.stl").unwrap_err();
+        assert!(
+            matches!(
+                e,
+                SurfaceError::NonFinite {
+                    at: Position::Byte(150),
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        assert!(matches!(
+            parse_stl(b"  \n", "f.stl"),
+            Err(SurfaceError::Empty { .. })
+        ));
+        assert!(matches!(
+            parse_stl(b"solid x\nendsolid x\n", "f.stl"),
+            Err(SurfaceError::NoTriangles { .. })
+        ));
+        assert!(matches!(
+            parse_stl(&[1u8; 40], "f.stl"),
+            Err(SurfaceError::Truncated { .. })
+        ));
+    }
+
+    #[test]
+    fn garbage_and_truncations_never_panic() {
+        // robustness: every prefix of valid files and random bytes give Ok or Err, no panic
+        let ascii = to_ascii_stl(&Surface::unit_cube());
+        let bin = to_binary_stl(&Surface::unit_cube(), "solid but binary");
+        for n in 0..ascii.len() {
+            let _ = parse_stl(&ascii.as_bytes()[..n], "a.stl");
+        }
+        for n in 0..bin.len() {
+            let _ = parse_stl(&bin[..n], "b.stl");
+        }
+        let mut rng = ChaCha8Rng::seed_from_u64(11);
+        for _ in 0..500 {
+            let len = rng.random_range(0..400);
+            let mut bytes: Vec<u8> = (0..len).map(|_| rng.random()).collect();
+            if rng.random_bool(0.5) && bytes.len() > 5 {
+                bytes[..5].copy_from_slice(b"solid");
+            }
+            let _ = parse_stl(&bytes, "r.stl");
+            // mutate one byte of the valid files
+            let mut a = ascii.clone().into_bytes();
+            let i = rng.random_range(0..a.len());
+            a[i] = rng.random();
+            let _ = parse_stl(&a, "a.stl");
+            let mut b = bin.clone();
+            let i = rng.random_range(0..b.len());
+            b[i] = rng.random();
+            let _ = parse_stl(&b, "b.stl");
+        }
+        // a huge count in a tiny file is refused before any allocation
+        let mut tiny = vec![0u8; 84];
+        tiny[80..84].copy_from_slice(&u32::MAX.to_le_bytes());
+        assert!(matches!(
+            parse_stl(&tiny, "t.stl"),
+            Err(SurfaceError::CountMismatch { .. })
+        ));
+    }
+}

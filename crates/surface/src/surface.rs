@@ -155,4 +155,91 @@ impl Surface {
             tag_names: vec!["cube".into()],
         }
     }
+
+    /// A UV sphere: `rings >= 2` latitude bands, `segments >= 3` longitudes, one vertex at each
+    /// pole; closed, manifold and outward, tag `sphere` (for tests and benchmarks).
+    ///
+    /// ```
+    /// use octocut_surface::{Surface, Vec3};
+    /// let s = Surface::uv_sphere(Vec3::ZERO, 1.0, 8, 16);
+    /// assert_eq!(s.triangles.len(), 2 * 16 * (8 - 1));
+    /// assert!(s.enclosed_volume() > 0.0);
+    /// ```
+    pub fn uv_sphere(center: Vec3, radius: f64, rings: u32, segments: u32) -> Surface {
+        let (rings, segments) = (rings.max(2), segments.max(3));
+        let mut vertices = vec![center + Vec3::Z * radius];
+        for i in 1..rings {
+            let th = std::f64::consts::PI * i as f64 / rings as f64;
+            for j in 0..segments {
+                let ph = std::f64::consts::TAU * j as f64 / segments as f64;
+                let d = Vec3::new(th.sin() * ph.cos(), th.sin() * ph.sin(), th.cos());
+                vertices.push(center + radius * d);
+            }
+        }
+        vertices.push(center - Vec3::Z * radius);
+        let south = vertices.len() as u32 - 1;
+        let p = |i: u32, j: u32| 1 + (i - 1) * segments + j % segments;
+        let mut triangles = Vec::with_capacity((2 * segments * (rings - 1)) as usize);
+        for j in 0..segments {
+            triangles.push([0, p(1, j), p(1, j + 1)]);
+            for i in 1..rings - 1 {
+                triangles.push([p(i, j), p(i + 1, j), p(i + 1, j + 1)]);
+                triangles.push([p(i, j), p(i + 1, j + 1), p(i, j + 1)]);
+            }
+            triangles.push([p(rings - 1, j), south, p(rings - 1, j + 1)]);
+        }
+        let n = triangles.len();
+        Surface {
+            vertices,
+            triangles,
+            tags: vec![TagId(0); n],
+            tag_names: vec!["sphere".into()],
+        }
+    }
+
+    /// A torus around the z axis, tube centre radius `major`, tube radius `minor`, with
+    /// `nu x nv` quads split in two; closed, manifold and outward, tag `torus`.
+    ///
+    /// ```
+    /// use octocut_surface::Surface;
+    /// let t = Surface::torus(2.0, 0.5, 24, 12);
+    /// assert_eq!(t.triangles.len(), 2 * 24 * 12);
+    /// assert!(t.enclosed_volume() > 0.0);
+    /// ```
+    pub fn torus(major: f64, minor: f64, nu: u32, nv: u32) -> Surface {
+        let (nu, nv) = (nu.max(3), nv.max(3));
+        let mut vertices = Vec::with_capacity((nu * nv) as usize);
+        for i in 0..nu {
+            let u = std::f64::consts::TAU * i as f64 / nu as f64;
+            for j in 0..nv {
+                let w = std::f64::consts::TAU * j as f64 / nv as f64;
+                let r = major + minor * w.cos();
+                vertices.push(Vec3::new(r * u.cos(), r * u.sin(), minor * w.sin()));
+            }
+        }
+        let p = |i: u32, j: u32| (i % nu) * nv + j % nv;
+        let mut triangles = Vec::with_capacity((2 * nu * nv) as usize);
+        for i in 0..nu {
+            for j in 0..nv {
+                triangles.push([p(i, j), p(i + 1, j), p(i + 1, j + 1)]);
+                triangles.push([p(i, j), p(i + 1, j + 1), p(i, j + 1)]);
+            }
+        }
+        let n = triangles.len();
+        Surface {
+            vertices,
+            triangles,
+            tags: vec![TagId(0); n],
+            tag_names: vec!["torus".into()],
+        }
+    }
+
+    /// The same triangles with three fresh vertices each (what an STL file holds).
+    pub fn to_soup(&self) -> Surface {
+        let tris: Vec<[Vec3; 3]> = (0..self.triangles.len()).map(|t| self.corners(t)).collect();
+        let mut s = Surface::from_soup(&tris, "");
+        s.tags = self.tags.clone();
+        s.tag_names = self.tag_names.clone();
+        s
+    }
 }
