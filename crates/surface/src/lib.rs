@@ -17,14 +17,24 @@
 //! assert!(!hits.is_empty());
 //! ```
 
+pub mod error;
 pub mod geom;
+pub mod health;
 pub mod index;
 pub mod predicates;
+pub mod repair;
 pub mod shapes;
+pub mod stl;
 pub mod surface;
+pub mod topology;
 pub mod tribox;
+pub mod tritri;
 pub mod winding;
 
+pub use error::{Position, SurfaceError};
 pub use geom::{Aabb, Vec3};
+pub use health::{health, HealthReport};
 pub use index::{SegmentHit, SurfaceIndex, SurfacePoint};
+pub use repair::{repair, RepairOptions, RepairReport};
+pub use stl::{load_stl, load_stl_files, parse_stl};
 pub use surface::{Surface, TagId};

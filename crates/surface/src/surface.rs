@@ -155,4 +155,39 @@ impl Surface {
             tag_names: vec!["cube".into()],
         }
     }
+
+    /// A UV sphere: `rings >= 2` latitude bands, `segments >= 3` longitudes, one vertex at each
+    /// pole; closed, manifold and outward, tag `sphere` (for tests and benchmarks).
+    ///
+    /// ```
+    /// use octocut_surface::{Surface, Vec3};
+    /// let s = Surface::uv_sphere(Vec3::ZERO, 1.0, 8, 16);
+    /// assert_eq!(s.triangles.len(), 2 * 16 * (8 - 1));
+    /// assert!(s.enclosed_volume() > 0.0);
+    /// ```
+    pub fn uv_sphere(center: Vec3, radius: f64, rings: u32, segments: u32) -> Surface {
+        crate::shapes::uv_sphere(center, radius, segments, rings, "sphere")
+    }
+
+    /// A torus around the z axis, tube centre radius `major`, tube radius `minor`, with
+    /// `nu x nv` quads split in two; closed, manifold and outward, tag `torus`.
+    ///
+    /// ```
+    /// use octocut_surface::Surface;
+    /// let t = Surface::torus(2.0, 0.5, 24, 12);
+    /// assert_eq!(t.triangles.len(), 2 * 24 * 12);
+    /// assert!(t.enclosed_volume() > 0.0);
+    /// ```
+    pub fn torus(major: f64, minor: f64, nu: u32, nv: u32) -> Surface {
+        crate::shapes::torus(Vec3::ZERO, major, minor, nu, nv, "torus")
+    }
+
+    /// The same triangles with three fresh vertices each (what an STL file holds).
+    pub fn to_soup(&self) -> Surface {
+        let tris: Vec<[Vec3; 3]> = (0..self.triangles.len()).map(|t| self.corners(t)).collect();
+        let mut s = Surface::from_soup(&tris, "");
+        s.tags = self.tags.clone();
+        s.tag_names = self.tag_names.clone();
+        s
+    }
 }
