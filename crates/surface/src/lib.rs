@@ -17,13 +17,17 @@
 //! assert!(!hits.is_empty());
 //! ```
 
+pub mod bvh;
+pub mod crossing;
 pub mod geom;
 pub mod index;
 pub mod predicates;
 pub mod surface;
+pub mod tree;
 pub mod tribox;
 pub mod winding;
+pub mod winding_tree;
 
 pub use geom::{Aabb, Vec3};
-pub use index::{SegmentHit, SurfaceIndex, SurfacePoint};
+pub use index::{IndexOptions, SegmentHit, SurfaceIndex, SurfacePoint};
 pub use surface::{Surface, TagId};
