@@ -17,6 +17,8 @@
 //! assert!(!hits.is_empty());
 //! ```
 
+pub mod bvh;
+pub mod crossing;
 pub mod error;
 pub mod geom;
 pub mod health;
@@ -27,14 +29,16 @@ pub mod shapes;
 pub mod stl;
 pub mod surface;
 pub mod topology;
+pub mod tree;
 pub mod tribox;
 pub mod tritri;
 pub mod winding;
+pub mod winding_tree;
 
 pub use error::{Position, SurfaceError};
 pub use geom::{Aabb, Vec3};
 pub use health::{health, HealthReport};
-pub use index::{SegmentHit, SurfaceIndex, SurfacePoint};
+pub use index::{IndexOptions, SegmentHit, SurfaceIndex, SurfacePoint};
 pub use repair::{repair, RepairOptions, RepairReport};
 pub use stl::{load_stl, load_stl_files, parse_stl};
 pub use surface::{Surface, TagId};

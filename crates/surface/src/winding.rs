@@ -10,7 +10,9 @@
 use crate::geom::Vec3;
 
 /// Signed solid angle of triangle `(a, b, c)` seen from `p`, in steradians, positive when the
-/// triangle is seen counter-clockwise (its normal faces away from `p`).
+/// triangle is seen counter-clockwise (its normal faces away from `p`). A point in the
+/// triangle's plane (zero triple product) gets the principal value 0: the mean of the limits
+/// from both sides (+-2 pi on the triangle, 0 beside it), which makes w = 1/2 on a flat face.
 ///
 /// ```
 /// use octocut_surface::{winding::solid_angle, Vec3};
@@ -28,6 +30,9 @@ pub fn solid_angle(p: Vec3, a: Vec3, b: Vec3, c: Vec3) -> f64 {
     let lb = b.length();
     let lc = c.length();
     let det = a.dot(b.cross(c));
+    if det == 0.0 {
+        return 0.0;
+    }
     let div = la * lb * lc + a.dot(b) * lc + a.dot(c) * lb + b.dot(c) * la;
     2.0 * det.atan2(div)
 }
@@ -36,4 +41,22 @@ pub fn solid_angle(p: Vec3, a: Vec3, b: Vec3, c: Vec3) -> f64 {
 pub fn winding_number_direct(p: Vec3, tris: impl Iterator<Item = [Vec3; 3]>) -> f64 {
     let s: f64 = tris.map(|[a, b, c]| solid_angle(p, a, b, c)).sum();
     s / (4.0 * std::f64::consts::PI)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::f64::consts::PI;
+
+    #[test]
+    fn solid_angle_of_octant_triangle() {
+        // exact: the triangle (X, Y, Z) seen from the origin covers one octant, 4 pi / 8.
+        let w = solid_angle(Vec3::ZERO, Vec3::X, Vec3::Y, Vec3::Z);
+        assert!((w - PI / 2.0).abs() < 1e-14);
+        // reversed orientation flips the sign (definition, Van Oosterom and Strackee 1983)
+        assert!((solid_angle(Vec3::ZERO, Vec3::X, Vec3::Z, Vec3::Y) + PI / 2.0).abs() < 1e-14);
+        // principal value in the plane
+        let p = Vec3::new(0.25, 0.25, 0.0);
+        assert_eq!(solid_angle(p, Vec3::ZERO, Vec3::X, Vec3::Y), 0.0);
+    }
 }
