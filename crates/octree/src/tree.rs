@@ -5,7 +5,31 @@
 //! integer arithmetic).
 
 use crate::domain::Domain;
+use crate::balance::last_le;
 use crate::key::{OctKey, MAX_DEPTH};
+
+/// The 26 face, edge and corner directions, faces first (in [`Octree::face_neighbours`] order).
+pub const DIRECTIONS: [[i32; 3]; 26] = {
+    let mut d = [[0i32; 3]; 26];
+    let faces = [[-1, 0, 0], [1, 0, 0], [0, -1, 0], [0, 1, 0], [0, 0, -1], [0, 0, 1]];
+    let mut i = 0;
+    while i < 6 {
+        d[i] = faces[i];
+        i += 1;
+    }
+    let mut n = 6;
+    let mut c = 0;
+    while c < 27 {
+        let v = [c % 3 - 1, (c / 3) % 3 - 1, c / 9 - 1];
+        let nz = (v[0] != 0) as i32 + (v[1] != 0) as i32 + (v[2] != 0) as i32;
+        if nz >= 2 {
+            d[n] = v;
+            n += 1;
+        }
+        c += 1;
+    }
+    d
+};
 
 /// Leaves of the forest over a [`Domain`], sorted along the Morton curve.
 ///
@@ -65,7 +89,11 @@ impl Octree {
     }
 
     /// Clears `out` and fills it with the leaves that touch leaf `leaf` across the face, edge or
-    /// corner given by `dir` (each component -1, 0 or 1, not all 0), in Morton order.
+    /// corner given by `dir` (each component -1, 0 or 1, not all 0), in Morton order: the leaves
+    /// overlapping the same-size box across `dir` that touch `leaf` (one coarser leaf, the leaf
+    /// of the same size, or the finer leaves on the shared feature). A coarser leaf may appear
+    /// for several directions. Searches gallop from `leaf`'s own index, so nearby neighbours are
+    /// found in a few steps.
     pub fn neighbours(&self, leaf: u32, dir: [i32; 3], out: &mut Vec<u32>) {
         out.clear();
         let k = self.leaves[leaf as usize];
@@ -82,31 +110,51 @@ impl Octree {
             b[i] = v as u32;
         }
         let region = OctKey::new(b, k.level());
-        let lo = self.leaves.partition_point(|x| *x < region);
-        if lo < self.leaves.len()
-            && (self.leaves[lo] == region || region.is_ancestor_of(&self.leaves[lo]))
-        {
-            // same size or finer: the descendants of `region` touching the shared feature
-            let end = region.last_descendant_morton();
-            let mut i = lo;
-            while i < self.leaves.len() && self.leaves[i].morton() <= end {
-                let n = self.leaves[i];
-                let na = n.anchor();
-                let ne = n.edge();
-                let touches = (0..3).all(|ax| match dir[ax] {
-                    1 => na[ax] == b[ax],
-                    -1 => na[ax] + ne == b[ax] + e as u32,
-                    _ => true,
-                });
-                if touches {
-                    out.push(i as u32);
-                }
-                i += 1;
-            }
-        } else if let Some(c) = self.locate(b) {
-            // a coarser leaf holds the whole region
-            out.push(c);
+        // the leaf holding the region's anchor cell
+        let probe = OctKey::new(b, MAX_DEPTH);
+        let c = last_le(&self.leaves, probe, leaf as usize);
+        let ck = self.leaves[c];
+        if ck.level() <= k.level() {
+            // the same-size box or a coarser leaf holding it
+            out.push(c as u32);
+            return;
         }
+        // finer: `c` holds the region's minimum corner, so it is the first leaf in the region
+        let lo = c;
+        let end = region.last_descendant_morton();
+        let mut i = lo;
+        while i < self.leaves.len() && self.leaves[i].morton() <= end {
+            let n = self.leaves[i];
+            let na = n.anchor();
+            let ne = n.edge();
+            let touches = (0..3).all(|ax| match dir[ax] {
+                1 => na[ax] == b[ax],
+                -1 => na[ax] + ne == b[ax] + e as u32,
+                _ => true,
+            });
+            if touches {
+                out.push(i as u32);
+            }
+            i += 1;
+        }
+    }
+
+    /// The leaves across face `face` of leaf `leaf` (0..6 = -x, +x, -y, +y, -z, +z), like
+    /// [`Octree::neighbours`].
+    #[inline]
+    pub fn face_neighbours(&self, leaf: u32, face: u8, out: &mut Vec<u32>) {
+        let mut dir = [0; 3];
+        dir[(face / 2) as usize % 3] = if face % 2 == 0 { -1 } else { 1 };
+        self.neighbours(leaf, dir, out)
+    }
+
+    /// Index of the leaf holding finest-grid cell `g`, searched by galloping from leaf `hint`.
+    pub fn locate_from(&self, g: [u32; 3], hint: u32) -> Option<u32> {
+        let ext = self.domain.grid_extent();
+        if self.leaves.is_empty() || (0..3).any(|i| g[i] >= ext[i]) {
+            return None;
+        }
+        Some(last_le(&self.leaves, OctKey::new(g, MAX_DEPTH), hint as usize) as u32)
     }
 
     /// Checks sortedness, no overlap and exact tiling; returns the first violation.
@@ -119,22 +167,10 @@ impl Octree {
                 return Err(format!("leaf {i} overlaps leaf {}", i + 1));
             }
         }
-        let vol: u128 = self
-            .leaves
-            .iter()
-            .map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32))
-            .sum();
-        let want: u128 = self
-            .domain
-            .counts
-            .iter()
-            .map(|&c| c as u128)
-            .product::<u128>()
-            << (3 * MAX_DEPTH as u32);
+        let vol: u128 = self.leaves.iter().map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32)).sum();
+        let want: u128 = self.domain.counts.iter().map(|&c| c as u128).product::<u128>() << (3 * MAX_DEPTH as u32);
         if vol != want {
-            return Err(format!(
-                "leaf volumes sum to {vol} finest cells, the box holds {want}"
-            ));
+            return Err(format!("leaf volumes sum to {vol} finest cells, the box holds {want}"));
         }
         Ok(())
     }

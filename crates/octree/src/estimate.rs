@@ -1,0 +1,85 @@
+//! Size estimate before refining: leaves and memory, so a caller can refuse a run early.
+//!
+//! Method: refine and balance with every level capped at `c = 0, 1, 2, ...` (small, cheap trees)
+//! until the cap reaches the deepest requested level (then the count is exact) or the tree
+//! exceeds [`DRY_RUN_LEAVES`]; the count is then extrapolated geometrically with the growth
+//! ratio of the last two caps, `N(L) = N(c) * (N(c) / N(c-1))^(L - c)` (ratio clamped to 1..8:
+//! about 4 per level for surface refinement, 8 for volume regions). Limits: the ratio is taken
+//! at coarse levels and can be off when criteria stop at different levels; criteria finishing
+//! early make it an overestimate.
+
+use crate::balance::balance;
+use crate::domain::Domain;
+use crate::key::OctKey;
+use crate::refine::refine_leaves;
+use crate::spec::{LevelPlan, OctreeError, RefineSpec};
+use octocut_surface::SurfaceIndex;
+use serde::{Deserialize, Serialize};
+
+/// Dry runs stop once a capped tree holds this many leaves.
+pub const DRY_RUN_LEAVES: u64 = 200_000;
+
+/// Peak bytes per leaf while refining and balancing (leaf array, its rebuilt copy and requests).
+pub const PEAK_BYTES_PER_LEAF: u64 = 48;
+
+/// Predicted size of a refinement.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Estimate {
+    /// Predicted leaves after balance.
+    pub leaves: u64,
+    /// Predicted peak memory of refinement and balance, bytes.
+    pub memory_bytes: u64,
+    /// True when no extrapolation was needed (`leaves` is the exact count).
+    pub exact: bool,
+    /// Deepest cap actually built.
+    pub measured_level: u8,
+    /// Deepest requested level.
+    pub max_level: u8,
+}
+
+/// Estimates the leaves and memory `refine(domain, index, spec)` would need.
+///
+/// ```
+/// use octocut_octree::{estimate, refine, Domain, RefineSpec, SurfaceRule, TagSel};
+/// use octocut_surface::{Aabb, Surface, SurfaceIndex, Vec3};
+/// let index = SurfaceIndex::new(Surface::unit_cube());
+/// let d = Domain::new(Aabb::new(Vec3::splat(-1.0), Vec3::splat(2.0)), 1.0).unwrap();
+/// let mut spec = RefineSpec::default();
+/// spec.surface.push(SurfaceRule { tag: TagSel::All, size: 0.125, finest_size: None });
+/// let e = estimate(&d, &index, &spec).unwrap();
+/// assert!(e.exact);
+/// assert_eq!(e.leaves, refine(&d, &index, &spec).unwrap().stats.leaves);
+/// ```
+pub fn estimate(domain: &Domain, index: &SurfaceIndex, spec: &RefineSpec) -> Result<Estimate, OctreeError> {
+    let plan = LevelPlan::new(domain, index.surface(), spec)?;
+    let lmax = plan.max_level;
+    let mut prev: Option<u64> = None;
+    let mut cap = 0u8;
+    loop {
+        let leaves = match refine_leaves(domain, index, spec, &plan, cap, Some(8 * DRY_RUN_LEAVES)) {
+            Ok((l, _)) => balance(domain, l, spec.balance, spec.transition_layers)?.len() as u64,
+            // the capped tree alone is large: it bounds the answer from below
+            Err(OctreeError::TooManyLeaves { .. }) => 8 * DRY_RUN_LEAVES,
+            Err(e) => return Err(e),
+        };
+        if cap >= lmax || leaves >= DRY_RUN_LEAVES {
+            let (n, exact) = if cap >= lmax {
+                (leaves, true)
+            } else {
+                let ratio = prev.map_or(8.0, |p| (leaves as f64 / p.max(1) as f64).clamp(1.0, 8.0));
+                ((leaves as f64 * ratio.powi((lmax - cap) as i32)).min(u64::MAX as f64) as u64, false)
+            };
+            return Ok(Estimate {
+                leaves: n,
+                memory_bytes: n.saturating_mul(PEAK_BYTES_PER_LEAF).saturating_add(index.surface().triangles.len() as u64 * 256),
+                exact,
+                measured_level: cap,
+                max_level: lmax,
+            });
+        }
+        prev = Some(leaves);
+        cap += 1;
+    }
+}
+
+const _: () = assert!(std::mem::size_of::<OctKey>() == 16);
