@@ -104,7 +104,10 @@ impl CellFaces {
                 push(mesh.neighbour[f], f as u32);
             }
         }
-        CellFaces { offsets: count, faces }
+        CellFaces {
+            offsets: count,
+            faces,
+        }
     }
 
     /// The faces of cell `c`.
@@ -140,7 +143,11 @@ pub fn cell_volume_centroid(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeo
         if n == 0 {
             continue;
         }
-        let sign = if mesh.owner[f as usize] == c { 1.0 } else { -1.0 };
+        let sign = if mesh.owner[f as usize] == c {
+            1.0
+        } else {
+            -1.0
+        };
         let mut c0 = Vec3::ZERO;
         for &v in vs {
             c0 += pts[v as usize];
@@ -160,7 +167,12 @@ pub fn cell_volume_centroid(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeo
         area_mag += fa.length();
     }
     let centroid = if vol != 0.0 { r + cen / vol } else { r };
-    CellGeom { volume: vol, centroid, area_sum, area_mag }
+    CellGeom {
+        volume: vol,
+        centroid,
+        area_sum,
+        area_mag,
+    }
 }
 
 /// Geometry of one cell.
@@ -206,6 +218,12 @@ impl MeshGeometry {
                 (g.volume, g.centroid)
             })
             .unzip();
-        MeshGeometry { face_area, face_centroid, cell_volume, cell_centroid, cell_faces }
+        MeshGeometry {
+            face_area,
+            face_centroid,
+            cell_volume,
+            cell_centroid,
+            cell_faces,
+        }
     }
 }

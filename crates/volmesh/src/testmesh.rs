@@ -64,7 +64,10 @@ impl MeshBuilder {
     }
     /// The mesh; empty patches are dropped.
     pub fn build(self) -> VolumeMesh {
-        let mut m = VolumeMesh { points: self.points, ..Default::default() };
+        let mut m = VolumeMesh {
+            points: self.points,
+            ..Default::default()
+        };
         m.face_offsets.push(0);
         let push = |m: &mut VolumeMesh, v: &[u32], o: u32| {
             m.face_vertices.extend_from_slice(v);
@@ -82,7 +85,12 @@ impl MeshBuilder {
             }
             let count = m.owner.len() as u32 - start;
             if count > 0 {
-                m.patches.push(Patch { name: name.clone(), kind: kind.clone(), start, count });
+                m.patches.push(Patch {
+                    name: name.clone(),
+                    kind: kind.clone(),
+                    start,
+                    count,
+                });
             }
         }
         m.cell_region = vec![NO_REGION; self.levels.len()];
@@ -165,7 +173,11 @@ pub fn from_boxes(cubes: &[LatticeCube], unit: f64) -> VolumeMesh {
                     q[u] = (c.min[u] + j) as i64;
                     q[v] = (c.min[v] + k) as i64;
                     let inside = (0..3).all(|t| q[t] >= 0 && (q[t] as usize) < dim[t]);
-                    let o = if inside { occ[cidx(q.map(|t| t as usize))] } else { NONE };
+                    let o = if inside {
+                        occ[cidx(q.map(|t| t as usize))]
+                    } else {
+                        NONE
+                    };
                     if o == NONE {
                         empty += 1;
                     } else if !nbrs.contains(&o) {
@@ -176,7 +188,12 @@ pub fn from_boxes(cubes: &[LatticeCube], unit: f64) -> VolumeMesh {
             assert!(empty == 0 || nbrs.is_empty(), "side partly on the boundary");
             let rect = |lo: [u32; 2], hi: [u32; 2]| -> Vec<u32> {
                 // corners counter-clockwise about +a in the (u, v) plane, then walked for points
-                let mut corners = [[lo[0], lo[1]], [hi[0], lo[1]], [hi[0], hi[1]], [lo[0], hi[1]]];
+                let mut corners = [
+                    [lo[0], lo[1]],
+                    [hi[0], lo[1]],
+                    [hi[0], hi[1]],
+                    [lo[0], hi[1]],
+                ];
                 if !plus {
                     corners.reverse();
                 }
@@ -230,7 +247,11 @@ pub fn block(n: u32, h: f64) -> VolumeMesh {
     for z in 0..n {
         for y in 0..n {
             for x in 0..n {
-                cubes.push(LatticeCube { min: [x, y, z], edge: 1, level: 0 });
+                cubes.push(LatticeCube {
+                    min: [x, y, z],
+                    edge: 1,
+                    level: 0,
+                });
             }
         }
     }
@@ -247,11 +268,23 @@ pub fn refined_block(n: u32, h: f64, refine: &[[u32; 3]]) -> VolumeMesh {
             for x in 0..n {
                 if refine.contains(&[x, y, z]) {
                     for k in 0..8u32 {
-                        let min = [2 * x + (k & 1), 2 * y + ((k >> 1) & 1), 2 * z + ((k >> 2) & 1)];
-                        cubes.push(LatticeCube { min, edge: 1, level: 1 });
+                        let min = [
+                            2 * x + (k & 1),
+                            2 * y + ((k >> 1) & 1),
+                            2 * z + ((k >> 2) & 1),
+                        ];
+                        cubes.push(LatticeCube {
+                            min,
+                            edge: 1,
+                            level: 1,
+                        });
                     }
                 } else {
-                    cubes.push(LatticeCube { min: [2 * x, 2 * y, 2 * z], edge: 2, level: 0 });
+                    cubes.push(LatticeCube {
+                        min: [2 * x, 2 * y, 2 * z],
+                        edge: 2,
+                        level: 0,
+                    });
                 }
             }
         }
@@ -355,18 +388,31 @@ pub mod broken {
     /// A single cube whose top face uses a point lifted off the cube (cell not closed).
     pub fn open_cell() -> VolumeMesh {
         let mut m = block(1, 1.0);
-        let zmax = m.patches.iter().find(|p| p.kind == PatchKind::Side { side: 5 }).unwrap();
+        let zmax = m
+            .patches
+            .iter()
+            .find(|p| p.kind == PatchKind::Side { side: 5 })
+            .unwrap();
         let k = m.face_offsets[zmax.start as usize] as usize;
         let v = m.face_vertices[k];
-        m.points.push(m.points[v as usize] + Vec3::new(0.0, 0.0, 0.25));
+        m.points
+            .push(m.points[v as usize] + Vec3::new(0.0, 0.0, 0.25));
         m.face_vertices[k] = m.points.len() as u32 - 1;
         m
     }
 
     fn two_cubes() -> Vec<LatticeCube> {
         vec![
-            LatticeCube { min: [0, 0, 0], edge: 1, level: 0 },
-            LatticeCube { min: [1, 0, 0], edge: 1, level: 0 },
+            LatticeCube {
+                min: [0, 0, 0],
+                edge: 1,
+                level: 0,
+            },
+            LatticeCube {
+                min: [1, 0, 0],
+                edge: 1,
+                level: 0,
+            },
         ]
     }
 }

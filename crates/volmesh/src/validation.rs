@@ -35,7 +35,11 @@ pub const REL_TOL: f64 = 1e-9;
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Problem {
     /// An array has the wrong length.
-    ArrayLength { array: String, expected: usize, found: usize },
+    ArrayLength {
+        array: String,
+        expected: usize,
+        found: usize,
+    },
     /// Face offsets decrease or run past the vertex array.
     FaceOffsets { face: u32, start: u32, end: u32 },
     /// A face names a point that does not exist.
@@ -43,27 +47,52 @@ pub enum Problem {
     /// A face names a cell that does not exist.
     CellOutOfRange { face: u32, cell: u32 },
     /// A face with fewer than three distinct vertices or a repeated vertex.
-    DegenerateFace { face: u32, vertices: u32, distinct: u32, at: Vec3 },
+    DegenerateFace {
+        face: u32,
+        vertices: u32,
+        distinct: u32,
+        at: Vec3,
+    },
     /// An interior face whose owner is its neighbour.
     OwnerIsNeighbour { face: u32, cell: u32, at: Vec3 },
     /// Two faces with the same vertex set.
     DuplicateFace { face: u32, other: u32, at: Vec3 },
     /// A patch that does not start where the previous one (or the interior faces) ended.
-    PatchLayout { patch: u32, start: u32, count: u32, expected_start: u32 },
+    PatchLayout {
+        patch: u32,
+        start: u32,
+        count: u32,
+        expected_start: u32,
+    },
     /// Boundary faces `first..first + count` belong to no patch.
     BoundaryNotCovered { first: u32, count: u32 },
     /// A cell without faces.
     EmptyCell { cell: u32 },
     /// A cell whose outward face area vectors do not sum to zero.
-    OpenCell { cell: u32, residual: f64, area: f64, at: Vec3 },
+    OpenCell {
+        cell: u32,
+        residual: f64,
+        area: f64,
+        at: Vec3,
+    },
     /// A cell of zero or negative volume.
     NonPositiveVolume { cell: u32, volume: f64, at: Vec3 },
     /// Point `point` has the coordinates of the lower-numbered point `other`.
     DuplicatePoint { point: u32, other: u32, at: Vec3 },
     /// The directed edge `from -> to` of cell `cell`'s outward faces has no reverse.
-    UnmatchedEdge { cell: u32, from: u32, to: u32, at: Vec3 },
+    UnmatchedEdge {
+        cell: u32,
+        from: u32,
+        to: u32,
+        at: Vec3,
+    },
     /// Mesh vertex `vertex` lies inside edge `edge` of face `face` (a T-junction).
-    VertexOnEdge { vertex: u32, face: u32, edge: [u32; 2], at: Vec3 },
+    VertexOnEdge {
+        vertex: u32,
+        face: u32,
+        edge: [u32; 2],
+        at: Vec3,
+    },
     /// The cells' volumes do not add up to the volume the boundary encloses.
     VolumeMismatch { cells: f64, boundary: f64 },
 }
@@ -129,7 +158,10 @@ impl VolumeMesh {
         }
         self.check_faces(&mut rep.problems);
         if rep.problems.iter().any(|p| {
-            matches!(p, Problem::VertexOutOfRange { .. } | Problem::CellOutOfRange { .. })
+            matches!(
+                p,
+                Problem::VertexOutOfRange { .. } | Problem::CellOutOfRange { .. }
+            )
         }) {
             return rep;
         }
@@ -142,7 +174,9 @@ impl VolumeMesh {
         let cf = CellFaces::new(self);
         let per_cell: Vec<(f64, Vec<Problem>)> = (0..self.n_cells())
             .into_par_iter()
-            .map_init(Vec::new, |edges, c| self.check_cell(c as u32, cf.of(c), edges))
+            .map_init(Vec::new, |edges, c| {
+                self.check_cell(c as u32, cf.of(c), edges)
+            })
             .collect();
         let mut cells_volume = 0.0;
         for (v, probs) in per_cell {
@@ -155,7 +189,11 @@ impl VolumeMesh {
 
         // boundary: enclosed volume and patch areas
         let bbox = Aabb::from_points(self.points.iter().copied());
-        let r = if bbox.is_empty() { Vec3::ZERO } else { bbox.center() };
+        let r = if bbox.is_empty() {
+            Vec3::ZERO
+        } else {
+            bbox.center()
+        };
         let nb = self.n_interior_faces()..self.n_faces();
         let per_face: Vec<(f64, f64)> = nb
             .clone()
@@ -170,7 +208,11 @@ impl VolumeMesh {
             let lo = (p.start as usize).clamp(nb.start, nb.end) - nb.start;
             let hi = (p.start as usize + p.count as usize).clamp(nb.start, nb.end) - nb.start;
             let area = per_face[lo..hi.max(lo)].iter().map(|x| x.1).sum();
-            rep.patch_areas.push(PatchArea { name: p.name.clone(), faces: p.count, area });
+            rep.patch_areas.push(PatchArea {
+                name: p.name.clone(),
+                faces: p.count,
+                area,
+            });
         }
         let scale = rep.boundary_volume.abs().max(rep.cells_volume.abs());
         if (rep.cells_volume - rep.boundary_volume).abs() > REL_TOL * scale {
@@ -186,28 +228,50 @@ impl VolumeMesh {
     fn check_arrays(&self, out: &mut Vec<Problem>) -> bool {
         fn len(out: &mut Vec<Problem>, array: &str, expected: usize, found: usize) -> bool {
             if expected != found {
-                out.push(Problem::ArrayLength { array: array.into(), expected, found });
+                out.push(Problem::ArrayLength {
+                    array: array.into(),
+                    expected,
+                    found,
+                });
             }
             expected == found
         }
-        let mut ok = len(out, "face_offsets", self.n_faces() + 1, self.face_offsets.len());
+        let mut ok = len(
+            out,
+            "face_offsets",
+            self.n_faces() + 1,
+            self.face_offsets.len(),
+        );
         len(out, "cell_cut", self.n_cells(), self.cell_cut.len());
         len(out, "cell_region", self.n_cells(), self.cell_region.len());
         if self.neighbour.len() > self.owner.len() {
-            ok &= len(out, "neighbour (at most owner)", self.owner.len(), self.neighbour.len());
+            ok &= len(
+                out,
+                "neighbour (at most owner)",
+                self.owner.len(),
+                self.neighbour.len(),
+            );
         }
         if !ok {
             return false;
         }
         if self.face_offsets[0] != 0 {
-            out.push(Problem::FaceOffsets { face: 0, start: self.face_offsets[0], end: 0 });
+            out.push(Problem::FaceOffsets {
+                face: 0,
+                start: self.face_offsets[0],
+                end: 0,
+            });
             ok = false;
         }
         let nv = self.face_vertices.len() as u64;
         for f in 0..self.n_faces() {
             let (s, e) = (self.face_offsets[f], self.face_offsets[f + 1]);
             if e < s || e as u64 > nv {
-                out.push(Problem::FaceOffsets { face: f as u32, start: s, end: e });
+                out.push(Problem::FaceOffsets {
+                    face: f as u32,
+                    start: s,
+                    end: e,
+                });
                 ok = false;
             }
         }
@@ -231,7 +295,10 @@ impl VolumeMesh {
                 let mut in_range = true;
                 for &v in vs {
                     if v >= np {
-                        probs.push(Problem::VertexOutOfRange { face: fu, vertex: v });
+                        probs.push(Problem::VertexOutOfRange {
+                            face: fu,
+                            vertex: v,
+                        });
                         in_range = false;
                     }
                 }
@@ -259,7 +326,11 @@ impl VolumeMesh {
                     });
                 }
                 if n == Some(o) {
-                    probs.push(Problem::OwnerIsNeighbour { face: fu, cell: o, at });
+                    probs.push(Problem::OwnerIsNeighbour {
+                        face: fu,
+                        cell: o,
+                        at,
+                    });
                 }
                 probs
             })
@@ -309,7 +380,8 @@ impl VolumeMesh {
             })
             .collect();
         let mut order: Vec<u32> = (0..self.n_faces() as u32).collect();
-        order.par_sort_unstable_by(|&a, &b| keys[a as usize].cmp(&keys[b as usize]).then(a.cmp(&b)));
+        order
+            .par_sort_unstable_by(|&a, &b| keys[a as usize].cmp(&keys[b as usize]).then(a.cmp(&b)));
         let mut found = Vec::new();
         for w in order.windows(2) {
             if keys[w[0] as usize] == keys[w[1] as usize] {
@@ -330,7 +402,9 @@ impl VolumeMesh {
         let mut order: Vec<u32> = (0..pts.len() as u32).collect();
         let cmp = |a: &u32, b: &u32| {
             let (p, q) = (pts[*a as usize], pts[*b as usize]);
-            p.x.total_cmp(&q.x).then(p.y.total_cmp(&q.y)).then(p.z.total_cmp(&q.z))
+            p.x.total_cmp(&q.x)
+                .then(p.y.total_cmp(&q.y))
+                .then(p.z.total_cmp(&q.z))
         };
         order.par_sort_unstable_by(|a, b| cmp(a, b).then(a.cmp(b)));
         let mut found = Vec::new();
@@ -344,12 +418,21 @@ impl VolumeMesh {
         }
         found.sort_unstable();
         for (point, other) in found {
-            out.push(Problem::DuplicatePoint { point, other, at: pts[point as usize] });
+            out.push(Problem::DuplicatePoint {
+                point,
+                other,
+                at: pts[point as usize],
+            });
         }
     }
 
     /// Closure, volume and directed-edge matching of one cell; returns its volume.
-    fn check_cell(&self, c: u32, faces: &[u32], edges: &mut Vec<(u64, i32)>) -> (f64, Vec<Problem>) {
+    fn check_cell(
+        &self,
+        c: u32,
+        faces: &[u32],
+        edges: &mut Vec<(u64, i32)>,
+    ) -> (f64, Vec<Problem>) {
         let mut probs = Vec::new();
         if faces.is_empty() {
             probs.push(Problem::EmptyCell { cell: c });
@@ -358,10 +441,19 @@ impl VolumeMesh {
         let g = cell_volume_centroid(self, c, faces);
         let residual = g.area_sum.length();
         if residual > REL_TOL * g.area_mag {
-            probs.push(Problem::OpenCell { cell: c, residual, area: g.area_mag, at: g.centroid });
+            probs.push(Problem::OpenCell {
+                cell: c,
+                residual,
+                area: g.area_mag,
+                at: g.centroid,
+            });
         }
         if g.volume.is_nan() || g.volume <= 0.0 {
-            probs.push(Problem::NonPositiveVolume { cell: c, volume: g.volume, at: g.centroid });
+            probs.push(Problem::NonPositiveVolume {
+                cell: c,
+                volume: g.volume,
+                at: g.centroid,
+            });
         }
         edges.clear();
         for &f in faces {
@@ -389,7 +481,12 @@ impl VolumeMesh {
                 let (lo, hi) = ((key >> 32) as u32, key as u32);
                 let (from, to) = if sum > 0 { (lo, hi) } else { (hi, lo) };
                 let at = 0.5 * (self.points[lo as usize] + self.points[hi as usize]);
-                probs.push(Problem::UnmatchedEdge { cell: c, from, to, at });
+                probs.push(Problem::UnmatchedEdge {
+                    cell: c,
+                    from,
+                    to,
+                    at,
+                });
             }
         }
         (g.volume, probs)
@@ -424,7 +521,11 @@ impl VolumeMesh {
         let mid = lens.len() / 2;
         let (_, med, _) = lens.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
         let bbox = Aabb::from_points(pts.iter().copied());
-        let g = if *med > 0.0 && med.is_finite() { *med } else { bbox.diagonal().max(1.0) };
+        let g = if *med > 0.0 && med.is_finite() {
+            *med
+        } else {
+            bbox.diagonal().max(1.0)
+        };
         let origin = bbox.min - Vec3::splat(0.5 * g);
         let cell_of = |p: Vec3| -> [i64; 3] {
             let q = (p - origin) / g;
@@ -433,8 +534,10 @@ impl VolumeMesh {
         let ext = cell_of(bbox.max);
         let (nx, ny) = (ext[0] + 1, ext[1] + 1);
         let key = |c: [i64; 3]| ((c[2] * ny + c[1]) * nx + c[0]) as u64;
-        let mut binned: Vec<(u64, u32)> =
-            (0..pts.len()).into_par_iter().map(|i| (key(cell_of(pts[i])), i as u32)).collect();
+        let mut binned: Vec<(u64, u32)> = (0..pts.len())
+            .into_par_iter()
+            .map(|i| (key(cell_of(pts[i])), i as u32))
+            .collect();
         binned.par_sort_unstable();
         let bin_keys: Vec<u64> = binned.iter().map(|b| b.0).collect();
         let found: Vec<Vec<Problem>> = edges
@@ -555,7 +658,10 @@ mod tests {
         }
         let r = testmesh::block(4, 0.25).validate();
         assert!(r.is_valid(), "{:?}", r.problems);
-        assert_eq!((r.n_cells, r.n_interior_faces, r.n_boundary_faces), (64, 144, 96)); // exact: 3 n^2 (n-1), 6 n^2
+        assert_eq!(
+            (r.n_cells, r.n_interior_faces, r.n_boundary_faces),
+            (64, 144, 96)
+        ); // exact: 3 n^2 (n-1), 6 n^2
         assert!((r.boundary_volume - 1.0).abs() < 1e-12);
         let m = testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0], [1, 0, 0]]);
         let r = m.validate();
@@ -589,7 +695,11 @@ mod tests {
             .count();
         assert_eq!(nbr_fine, 4);
         // its four sides touching the refined cell along an edge carry that edge's midpoint
-        let nverts: usize = cf.of(coarse).iter().map(|&f| m.face(f as usize).len()).sum();
+        let nverts: usize = cf
+            .of(coarse)
+            .iter()
+            .map(|&f| m.face(f as usize).len())
+            .sum();
         // exact by construction: 4 sub-faces of 4 vertices + 4 sides of 5 + the far side of 4
         assert_eq!(nverts, 16 + 20 + 4);
     }
@@ -599,9 +709,15 @@ mod tests {
         let r = broken::missing_face().validate();
         assert!(!r.is_valid());
         let k = kinds(&r);
-        assert!(k.contains(&"open_cell") && k.contains(&"unmatched_edge"), "{k:?}");
+        assert!(
+            k.contains(&"open_cell") && k.contains(&"unmatched_edge"),
+            "{k:?}"
+        );
         assert!(k.contains(&"volume_mismatch"), "{k:?}");
-        assert!(r.problems.iter().any(|p| matches!(p, Problem::OpenCell { cell: 1, .. })));
+        assert!(r
+            .problems
+            .iter()
+            .any(|p| matches!(p, Problem::OpenCell { cell: 1, .. })));
 
         let r = broken::flipped_face().validate();
         let open: Vec<u32> = r
@@ -616,12 +732,18 @@ mod tests {
         assert!(kinds(&r).contains(&"unmatched_edge"));
 
         let r = broken::duplicated_point().validate();
-        assert!(r.problems.iter().any(|p| matches!(p, Problem::DuplicatePoint { point: 12, .. })));
+        assert!(r
+            .problems
+            .iter()
+            .any(|p| matches!(p, Problem::DuplicatePoint { point: 12, .. })));
         assert!(kinds(&r).contains(&"unmatched_edge"));
 
         let r = broken::t_junction().validate();
         let k = kinds(&r);
-        assert!(k.contains(&"unmatched_edge") && k.contains(&"vertex_on_edge"), "{k:?}");
+        assert!(
+            k.contains(&"unmatched_edge") && k.contains(&"vertex_on_edge"),
+            "{k:?}"
+        );
         // closure still holds: a T-junction is invisible to the area sum
         assert!(!k.contains(&"open_cell"));
         for p in &r.problems {
@@ -633,7 +755,10 @@ mod tests {
 
         let r = broken::open_cell().validate();
         let k = kinds(&r);
-        assert!(k.contains(&"open_cell") && k.contains(&"unmatched_edge"), "{k:?}");
+        assert!(
+            k.contains(&"open_cell") && k.contains(&"unmatched_edge"),
+            "{k:?}"
+        );
     }
 
     #[test]
@@ -643,7 +768,13 @@ mod tests {
         m.face_vertices[3] = 1000;
         let r = m.validate();
         assert!(!r.geometry_checked);
-        assert_eq!(r.problems, vec![Problem::VertexOutOfRange { face: 0, vertex: 1000 }]);
+        assert_eq!(
+            r.problems,
+            vec![Problem::VertexOutOfRange {
+                face: 0,
+                vertex: 1000
+            }]
+        );
 
         let mut m = good.clone();
         m.neighbour[2] = m.owner[2];
@@ -676,7 +807,10 @@ mod tests {
     #[test]
     fn report_is_thread_count_independent() {
         let m = testmesh::broken::t_junction();
-        let one = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();
+        let one = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
         let a = one.install(|| m.validate());
         let b = m.validate();
         assert_eq!(a, b);
