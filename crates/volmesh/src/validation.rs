@@ -1,0 +1,820 @@
+//! The validity proof of a [`VolumeMesh`]: every defect found is returned as data with its ids
+//! and a location.
+//!
+//! What is proved (each a [`Problem`] variant when it fails):
+//! - the arrays are consistent: offsets monotone and ending at the vertex count, ids in range,
+//!   faces with at least three distinct vertices and no repeats, owner != neighbour, no face
+//!   listed twice (same vertex set), patches contiguous after the interior faces and covering
+//!   every boundary face;
+//! - no two points share coordinates (sorting, exact comparison);
+//! - every cell is closed: its outward face area vectors sum to zero within
+//!   `1e-9 * sum |A_f|` (a closed surface has zero vector area), and every cell volume is
+//!   positive (divergence theorem, see [`crate::geometry`]);
+//! - no T-junctions: combinatorially, every directed edge of a cell's outward faces is matched
+//!   by its reverse in the same cell (a closed oriented 2-manifold, common practice); and
+//!   geometrically, no mesh vertex lies inside an edge of a face (spatial hash of the points,
+//!   relative tolerance `1e-9` of the edge length);
+//! - the sum of cell volumes equals the volume enclosed by the boundary faces (divergence
+//!   theorem over the boundary) within `1e-9` relative.
+//!
+//! When the arrays are inconsistent the geometric checks are skipped (`geometry_checked` is
+//! false). Work is parallel over cells, faces and edges; sums are taken sequentially over
+//! per-item values so the report is identical at any thread count.
+
+use crate::geometry::{cell_volume_centroid, polygon_area_centroid, CellFaces};
+use crate::mesh::VolumeMesh;
+use octocut_surface::{Aabb, Vec3};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// Relative tolerance of the closure, volume and on-edge checks.
+pub const REL_TOL: f64 = 1e-9;
+
+/// One defect of a mesh.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Problem {
+    /// An array has the wrong length.
+    ArrayLength {
+        array: String,
+        expected: usize,
+        found: usize,
+    },
+    /// Face offsets decrease or run past the vertex array.
+    FaceOffsets { face: u32, start: u32, end: u32 },
+    /// A face names a point that does not exist.
+    VertexOutOfRange { face: u32, vertex: u32 },
+    /// A face names a cell that does not exist.
+    CellOutOfRange { face: u32, cell: u32 },
+    /// A face with fewer than three distinct vertices or a repeated vertex.
+    DegenerateFace {
+        face: u32,
+        vertices: u32,
+        distinct: u32,
+        at: Vec3,
+    },
+    /// An interior face whose owner is its neighbour.
+    OwnerIsNeighbour { face: u32, cell: u32, at: Vec3 },
+    /// Two faces with the same vertex set.
+    DuplicateFace { face: u32, other: u32, at: Vec3 },
+    /// A patch that does not start where the previous one (or the interior faces) ended.
+    PatchLayout {
+        patch: u32,
+        start: u32,
+        count: u32,
+        expected_start: u32,
+    },
+    /// Boundary faces `first..first + count` belong to no patch.
+    BoundaryNotCovered { first: u32, count: u32 },
+    /// A cell without faces.
+    EmptyCell { cell: u32 },
+    /// A cell whose outward face area vectors do not sum to zero.
+    OpenCell {
+        cell: u32,
+        residual: f64,
+        area: f64,
+        at: Vec3,
+    },
+    /// A cell of zero or negative volume.
+    NonPositiveVolume { cell: u32, volume: f64, at: Vec3 },
+    /// Point `point` has the coordinates of the lower-numbered point `other`.
+    DuplicatePoint { point: u32, other: u32, at: Vec3 },
+    /// The directed edge `from -> to` of cell `cell`'s outward faces has no reverse.
+    UnmatchedEdge {
+        cell: u32,
+        from: u32,
+        to: u32,
+        at: Vec3,
+    },
+    /// Mesh vertex `vertex` lies inside edge `edge` of face `face` (a T-junction).
+    VertexOnEdge {
+        vertex: u32,
+        face: u32,
+        edge: [u32; 2],
+        at: Vec3,
+    },
+    /// The cells' volumes do not add up to the volume the boundary encloses.
+    VolumeMismatch { cells: f64, boundary: f64 },
+}
+
+/// Boundary area of one patch.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct PatchArea {
+    pub name: String,
+    pub faces: u32,
+    pub area: f64,
+}
+
+/// The outcome of [`VolumeMesh::validate`].
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ValidationReport {
+    pub n_points: usize,
+    pub n_cells: usize,
+    pub n_faces: usize,
+    pub n_interior_faces: usize,
+    pub n_boundary_faces: usize,
+    /// Sum of the cell volumes.
+    pub cells_volume: f64,
+    /// Volume enclosed by the boundary faces.
+    pub boundary_volume: f64,
+    pub patch_areas: Vec<PatchArea>,
+    /// False when inconsistent arrays stopped the geometric checks.
+    pub geometry_checked: bool,
+    /// Every defect found, grouped by check in a fixed order, ascending ids within a check.
+    pub problems: Vec<Problem>,
+}
+
+impl ValidationReport {
+    /// True when no problem was found.
+    pub fn is_valid(&self) -> bool {
+        self.problems.is_empty() && self.geometry_checked
+    }
+}
+
+impl VolumeMesh {
+    /// Proves the mesh valid or lists every defect.
+    ///
+    /// ```
+    /// use octocut_volmesh::testmesh;
+    /// let r = testmesh::block(3, 1.0).validate();
+    /// assert!(r.is_valid());
+    /// assert!((r.cells_volume - 27.0).abs() < 1e-12); // exact: 3^3
+    /// ```
+    pub fn validate(&self) -> ValidationReport {
+        let mut rep = ValidationReport {
+            n_points: self.points.len(),
+            n_cells: self.n_cells(),
+            n_faces: self.n_faces(),
+            n_interior_faces: self.n_interior_faces(),
+            n_boundary_faces: self.n_faces().saturating_sub(self.n_interior_faces()),
+            cells_volume: 0.0,
+            boundary_volume: 0.0,
+            patch_areas: Vec::new(),
+            geometry_checked: false,
+            problems: Vec::new(),
+        };
+        if !self.check_arrays(&mut rep.problems) {
+            return rep;
+        }
+        self.check_faces(&mut rep.problems);
+        if rep.problems.iter().any(|p| {
+            matches!(
+                p,
+                Problem::VertexOutOfRange { .. } | Problem::CellOutOfRange { .. }
+            )
+        }) {
+            return rep;
+        }
+        rep.geometry_checked = true;
+        self.check_patches(&mut rep.problems);
+        self.check_duplicate_faces(&mut rep.problems);
+        self.check_duplicate_points(&mut rep.problems);
+
+        // per cell: closure, volume, directed edges
+        let cf = CellFaces::new(self);
+        let per_cell: Vec<(f64, Vec<Problem>)> = (0..self.n_cells())
+            .into_par_iter()
+            .map_init(Vec::new, |edges, c| {
+                self.check_cell(c as u32, cf.of(c), edges)
+            })
+            .collect();
+        let mut cells_volume = 0.0;
+        for (v, probs) in per_cell {
+            cells_volume += v;
+            rep.problems.extend(probs);
+        }
+        rep.cells_volume = cells_volume;
+
+        self.check_vertices_on_edges(&mut rep.problems);
+
+        // boundary: enclosed volume and patch areas
+        let bbox = Aabb::from_points(self.points.iter().copied());
+        let r = if bbox.is_empty() {
+            Vec3::ZERO
+        } else {
+            bbox.center()
+        };
+        let nb = self.n_interior_faces()..self.n_faces();
+        let per_face: Vec<(f64, f64)> = nb
+            .clone()
+            .into_par_iter()
+            .map(|f| {
+                let (a, _) = polygon_area_centroid(&self.points, self.face(f));
+                (fan_volume(&self.points, self.face(f), r), a.length())
+            })
+            .collect();
+        rep.boundary_volume = per_face.iter().map(|x| x.0).sum();
+        for p in &self.patches {
+            let lo = (p.start as usize).clamp(nb.start, nb.end) - nb.start;
+            let hi = (p.start as usize + p.count as usize).clamp(nb.start, nb.end) - nb.start;
+            let area = per_face[lo..hi.max(lo)].iter().map(|x| x.1).sum();
+            rep.patch_areas.push(PatchArea {
+                name: p.name.clone(),
+                faces: p.count,
+                area,
+            });
+        }
+        let scale = rep.boundary_volume.abs().max(rep.cells_volume.abs());
+        if (rep.cells_volume - rep.boundary_volume).abs() > REL_TOL * scale {
+            rep.problems.push(Problem::VolumeMismatch {
+                cells: rep.cells_volume,
+                boundary: rep.boundary_volume,
+            });
+        }
+        rep
+    }
+
+    /// Lengths and offsets; false when the face arrays cannot be read.
+    fn check_arrays(&self, out: &mut Vec<Problem>) -> bool {
+        fn len(out: &mut Vec<Problem>, array: &str, expected: usize, found: usize) -> bool {
+            if expected != found {
+                out.push(Problem::ArrayLength {
+                    array: array.into(),
+                    expected,
+                    found,
+                });
+            }
+            expected == found
+        }
+        let mut ok = len(
+            out,
+            "face_offsets",
+            self.n_faces() + 1,
+            self.face_offsets.len(),
+        );
+        len(out, "cell_cut", self.n_cells(), self.cell_cut.len());
+        len(out, "cell_region", self.n_cells(), self.cell_region.len());
+        if self.neighbour.len() > self.owner.len() {
+            ok &= len(
+                out,
+                "neighbour (at most owner)",
+                self.owner.len(),
+                self.neighbour.len(),
+            );
+        }
+        if !ok {
+            return false;
+        }
+        if self.face_offsets[0] != 0 {
+            out.push(Problem::FaceOffsets {
+                face: 0,
+                start: self.face_offsets[0],
+                end: 0,
+            });
+            ok = false;
+        }
+        let nv = self.face_vertices.len() as u64;
+        for f in 0..self.n_faces() {
+            let (s, e) = (self.face_offsets[f], self.face_offsets[f + 1]);
+            if e < s || e as u64 > nv {
+                out.push(Problem::FaceOffsets {
+                    face: f as u32,
+                    start: s,
+                    end: e,
+                });
+                ok = false;
+            }
+        }
+        if ok {
+            let last = *self.face_offsets.last().unwrap() as usize;
+            ok &= len(out, "face_vertices", last, nv as usize);
+        }
+        ok
+    }
+
+    /// Per face: ids in range, distinct vertices, owner != neighbour.
+    fn check_faces(&self, out: &mut Vec<Problem>) {
+        let np = self.points.len() as u32;
+        let nc = self.n_cells() as u32;
+        let per_face: Vec<Vec<Problem>> = (0..self.n_faces())
+            .into_par_iter()
+            .map_init(Vec::new, |sorted: &mut Vec<u32>, f| {
+                let mut probs = Vec::new();
+                let vs = self.face(f);
+                let fu = f as u32;
+                let mut in_range = true;
+                for &v in vs {
+                    if v >= np {
+                        probs.push(Problem::VertexOutOfRange {
+                            face: fu,
+                            vertex: v,
+                        });
+                        in_range = false;
+                    }
+                }
+                let o = self.owner[f];
+                let n = self.neighbour.get(f).copied();
+                for c in std::iter::once(o).chain(n) {
+                    if c >= nc {
+                        probs.push(Problem::CellOutOfRange { face: fu, cell: c });
+                    }
+                }
+                if !in_range {
+                    return probs;
+                }
+                let at = vertex_average(&self.points, vs);
+                sorted.clear();
+                sorted.extend_from_slice(vs);
+                sorted.sort_unstable();
+                sorted.dedup();
+                if sorted.len() < 3 || sorted.len() != vs.len() {
+                    probs.push(Problem::DegenerateFace {
+                        face: fu,
+                        vertices: vs.len() as u32,
+                        distinct: sorted.len() as u32,
+                        at,
+                    });
+                }
+                if n == Some(o) {
+                    probs.push(Problem::OwnerIsNeighbour {
+                        face: fu,
+                        cell: o,
+                        at,
+                    });
+                }
+                probs
+            })
+            .collect();
+        out.extend(per_face.into_iter().flatten());
+    }
+
+    fn check_patches(&self, out: &mut Vec<Problem>) {
+        let mut expected = self.n_interior_faces() as u64;
+        for (i, p) in self.patches.iter().enumerate() {
+            if p.start as u64 != expected {
+                out.push(Problem::PatchLayout {
+                    patch: i as u32,
+                    start: p.start,
+                    count: p.count,
+                    expected_start: expected as u32,
+                });
+            }
+            expected = p.start as u64 + p.count as u64;
+        }
+        let nf = self.n_faces() as u64;
+        if expected < nf {
+            out.push(Problem::BoundaryNotCovered {
+                first: expected as u32,
+                count: (nf - expected) as u32,
+            });
+        } else if expected > nf && !self.patches.is_empty() {
+            let last = self.patches.len() - 1;
+            let p = &self.patches[last];
+            out.push(Problem::PatchLayout {
+                patch: last as u32,
+                start: p.start,
+                count: p.count,
+                expected_start: p.start,
+            });
+        }
+    }
+
+    fn check_duplicate_faces(&self, out: &mut Vec<Problem>) {
+        // sort faces by their sorted vertex list; equal neighbours in that order are duplicates
+        let keys: Vec<Vec<u32>> = (0..self.n_faces())
+            .into_par_iter()
+            .map(|f| {
+                let mut k = self.face(f).to_vec();
+                k.sort_unstable();
+                k
+            })
+            .collect();
+        let mut order: Vec<u32> = (0..self.n_faces() as u32).collect();
+        order
+            .par_sort_unstable_by(|&a, &b| keys[a as usize].cmp(&keys[b as usize]).then(a.cmp(&b)));
+        let mut found = Vec::new();
+        for w in order.windows(2) {
+            if keys[w[0] as usize] == keys[w[1] as usize] {
+                // w[0] is the lowest id of its group only at the group's start: report each
+                // later face against its predecessor in id order
+                found.push((w[1], w[0]));
+            }
+        }
+        found.sort_unstable();
+        for (face, other) in found {
+            let at = vertex_average(&self.points, self.face(face as usize));
+            out.push(Problem::DuplicateFace { face, other, at });
+        }
+    }
+
+    fn check_duplicate_points(&self, out: &mut Vec<Problem>) {
+        let pts = &self.points;
+        let mut order: Vec<u32> = (0..pts.len() as u32).collect();
+        let cmp = |a: &u32, b: &u32| {
+            let (p, q) = (pts[*a as usize], pts[*b as usize]);
+            p.x.total_cmp(&q.x)
+                .then(p.y.total_cmp(&q.y))
+                .then(p.z.total_cmp(&q.z))
+        };
+        order.par_sort_unstable_by(|a, b| cmp(a, b).then(a.cmp(b)));
+        let mut found = Vec::new();
+        let mut first = 0;
+        for i in 1..order.len() {
+            if cmp(&order[i], &order[first]).is_eq() {
+                found.push((order[i], order[first]));
+            } else {
+                first = i;
+            }
+        }
+        found.sort_unstable();
+        for (point, other) in found {
+            out.push(Problem::DuplicatePoint {
+                point,
+                other,
+                at: pts[point as usize],
+            });
+        }
+    }
+
+    /// Closure, volume and directed-edge matching of one cell; returns its volume.
+    fn check_cell(
+        &self,
+        c: u32,
+        faces: &[u32],
+        edges: &mut Vec<(u64, i32)>,
+    ) -> (f64, Vec<Problem>) {
+        let mut probs = Vec::new();
+        if faces.is_empty() {
+            probs.push(Problem::EmptyCell { cell: c });
+            return (0.0, probs);
+        }
+        let g = cell_volume_centroid(self, c, faces);
+        let residual = g.area_sum.length();
+        if residual > REL_TOL * g.area_mag {
+            probs.push(Problem::OpenCell {
+                cell: c,
+                residual,
+                area: g.area_mag,
+                at: g.centroid,
+            });
+        }
+        if g.volume.is_nan() || g.volume <= 0.0 {
+            probs.push(Problem::NonPositiveVolume {
+                cell: c,
+                volume: g.volume,
+                at: g.centroid,
+            });
+        }
+        edges.clear();
+        for &f in faces {
+            let vs = self.face(f as usize);
+            let out = self.owner[f as usize] == c;
+            for i in 0..vs.len() {
+                let (mut a, mut b) = (vs[i], vs[(i + 1) % vs.len()]);
+                if !out {
+                    std::mem::swap(&mut a, &mut b);
+                }
+                let (lo, hi, s) = if a < b { (a, b, 1) } else { (b, a, -1) };
+                edges.push(((lo as u64) << 32 | hi as u64, s));
+            }
+        }
+        edges.sort_unstable();
+        let mut i = 0;
+        while i < edges.len() {
+            let key = edges[i].0;
+            let mut sum = 0;
+            while i < edges.len() && edges[i].0 == key {
+                sum += edges[i].1;
+                i += 1;
+            }
+            if sum != 0 {
+                let (lo, hi) = ((key >> 32) as u32, key as u32);
+                let (from, to) = if sum > 0 { (lo, hi) } else { (hi, lo) };
+                let at = 0.5 * (self.points[lo as usize] + self.points[hi as usize]);
+                probs.push(Problem::UnmatchedEdge {
+                    cell: c,
+                    from,
+                    to,
+                    at,
+                });
+            }
+        }
+        (g.volume, probs)
+    }
+
+    /// Geometric T-junction check: points lying strictly inside an edge of some face.
+    fn check_vertices_on_edges(&self, out: &mut Vec<Problem>) {
+        let pts = &self.points;
+        // unique undirected edges, each with the lowest face using it
+        let mut edges: Vec<(u64, u32)> = (0..self.n_faces())
+            .into_par_iter()
+            .flat_map_iter(|f| {
+                let vs = self.face(f);
+                (0..vs.len()).map(move |i| {
+                    let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
+                    let (lo, hi) = (a.min(b), a.max(b));
+                    ((lo as u64) << 32 | hi as u64, f as u32)
+                })
+            })
+            .collect();
+        edges.par_sort_unstable();
+        edges.dedup_by_key(|e| e.0);
+        if edges.is_empty() || pts.is_empty() {
+            return;
+        }
+        // grid spacing: the median edge length; origin shifted half a cell so that lattice
+        // points sit at cell centres
+        let mut lens: Vec<f64> = edges
+            .par_iter()
+            .map(|&(k, _)| (pts[(k >> 32) as usize] - pts[k as u32 as usize]).length())
+            .collect();
+        let mid = lens.len() / 2;
+        let (_, med, _) = lens.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
+        let bbox = Aabb::from_points(pts.iter().copied());
+        let g = if *med > 0.0 && med.is_finite() {
+            *med
+        } else {
+            bbox.diagonal().max(1.0)
+        };
+        let origin = bbox.min - Vec3::splat(0.5 * g);
+        let cell_of = |p: Vec3| -> [i64; 3] {
+            let q = (p - origin) / g;
+            [q.x.floor() as i64, q.y.floor() as i64, q.z.floor() as i64]
+        };
+        let ext = cell_of(bbox.max);
+        let (nx, ny) = (ext[0] + 1, ext[1] + 1);
+        let key = |c: [i64; 3]| ((c[2] * ny + c[1]) * nx + c[0]) as u64;
+        let mut binned: Vec<(u64, u32)> = (0..pts.len())
+            .into_par_iter()
+            .map(|i| (key(cell_of(pts[i])), i as u32))
+            .collect();
+        binned.par_sort_unstable();
+        let bin_keys: Vec<u64> = binned.iter().map(|b| b.0).collect();
+        let found: Vec<Vec<Problem>> = edges
+            .par_iter()
+            .map(|&(k, face)| {
+                let (a, b) = ((k >> 32) as u32, k as u32);
+                let (pa, pb) = (pts[a as usize], pts[b as usize]);
+                let d = pb - pa;
+                let l2 = d.length_squared();
+                let mut probs = Vec::new();
+                if l2 == 0.0 || !l2.is_finite() {
+                    return probs;
+                }
+                let tol = REL_TOL * l2.sqrt();
+                let lo = cell_of(pa.min(pb) - Vec3::splat(tol)).map(|v| v.max(0));
+                let hi = cell_of(pa.max(pb) + Vec3::splat(tol));
+                let hi = [hi[0].min(ext[0]), hi[1].min(ext[1]), hi[2].min(ext[2])];
+                for z in lo[2]..=hi[2] {
+                    for y in lo[1]..=hi[1] {
+                        for x in lo[0]..=hi[0] {
+                            let kk = key([x, y, z]);
+                            let s = bin_keys.partition_point(|&q| q < kk);
+                            for &(q, v) in &binned[s..] {
+                                if q != kk {
+                                    break;
+                                }
+                                if v == a || v == b {
+                                    continue;
+                                }
+                                let p = pts[v as usize];
+                                let t = (p - pa).dot(d) / l2;
+                                if t <= REL_TOL || t >= 1.0 - REL_TOL {
+                                    continue;
+                                }
+                                if (p - (pa + t * d)).length_squared() <= tol * tol {
+                                    probs.push(Problem::VertexOnEdge {
+                                        vertex: v,
+                                        face,
+                                        edge: [a, b],
+                                        at: p,
+                                    });
+                                }
+                            }
+                        }
+                    }
+                }
+                probs.sort_by_key(|p| match p {
+                    Problem::VertexOnEdge { vertex, .. } => *vertex,
+                    _ => 0,
+                });
+                probs
+            })
+            .collect();
+        out.extend(found.into_iter().flatten());
+    }
+}
+
+fn vertex_average(points: &[Vec3], vs: &[u32]) -> Vec3 {
+    let mut c = Vec3::ZERO;
+    for &v in vs {
+        c += points[v as usize];
+    }
+    c / vs.len().max(1) as f64
+}
+
+/// Signed volume of the cone from `r` over the fan triangulation of polygon `vs`.
+fn fan_volume(points: &[Vec3], vs: &[u32], r: Vec3) -> f64 {
+    let c0 = vertex_average(points, vs) - r;
+    let mut v = 0.0;
+    for i in 0..vs.len() {
+        let a = points[vs[i] as usize] - r;
+        let b = points[vs[(i + 1) % vs.len()] as usize] - r;
+        v += c0.dot(a.cross(b)) / 6.0;
+    }
+    v
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::testmesh::{self, broken};
+
+    fn kinds(r: &ValidationReport) -> Vec<&'static str> {
+        let mut k: Vec<&'static str> = r
+            .problems
+            .iter()
+            .map(|p| match p {
+                Problem::ArrayLength { .. } => "array_length",
+                Problem::FaceOffsets { .. } => "face_offsets",
+                Problem::VertexOutOfRange { .. } => "vertex_out_of_range",
+                Problem::CellOutOfRange { .. } => "cell_out_of_range",
+                Problem::DegenerateFace { .. } => "degenerate_face",
+                Problem::OwnerIsNeighbour { .. } => "owner_is_neighbour",
+                Problem::DuplicateFace { .. } => "duplicate_face",
+                Problem::PatchLayout { .. } => "patch_layout",
+                Problem::BoundaryNotCovered { .. } => "boundary_not_covered",
+                Problem::EmptyCell { .. } => "empty_cell",
+                Problem::OpenCell { .. } => "open_cell",
+                Problem::NonPositiveVolume { .. } => "non_positive_volume",
+                Problem::DuplicatePoint { .. } => "duplicate_point",
+                Problem::UnmatchedEdge { .. } => "unmatched_edge",
+                Problem::VertexOnEdge { .. } => "vertex_on_edge",
+                Problem::VolumeMismatch { .. } => "volume_mismatch",
+            })
+            .collect();
+        k.dedup();
+        k
+    }
+
+    #[test]
+    fn good_meshes_are_valid() {
+        let r = testmesh::block(1, 2.0).validate();
+        assert!(r.is_valid(), "{:?}", r.problems);
+        assert!((r.cells_volume - 8.0).abs() < 1e-12); // exact: cube volume a^3
+        assert_eq!(r.patch_areas.len(), 6);
+        for p in &r.patch_areas {
+            assert!((p.area - 4.0).abs() < 1e-12); // exact: square area a^2
+        }
+        let r = testmesh::block(4, 0.25).validate();
+        assert!(r.is_valid(), "{:?}", r.problems);
+        assert_eq!(
+            (r.n_cells, r.n_interior_faces, r.n_boundary_faces),
+            (64, 144, 96)
+        ); // exact: 3 n^2 (n-1), 6 n^2
+        assert!((r.boundary_volume - 1.0).abs() < 1e-12);
+        let m = testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0], [1, 0, 0]]);
+        let r = m.validate();
+        assert!(r.is_valid(), "{:?}", r.problems);
+        assert_eq!(r.n_cells, 27 - 3 + 24);
+        assert!((r.cells_volume - 27.0).abs() < 1e-12); // exact: 3^3
+        let r = testmesh::clipped_cube().validate();
+        assert!(r.is_valid(), "{:?}", r.problems);
+        assert!((r.cells_volume - (1.0 - 1.0 / 48.0)).abs() < 1e-14); // exact: 1 - (1/2)^3/6
+        let tri = r.patch_areas.iter().find(|p| p.name == "wall").unwrap();
+        // exact: equilateral triangle of side sqrt(2)/2: sqrt(3)/4 * 1/2
+        assert!((tri.area - 3f64.sqrt() / 8.0).abs() < 1e-14);
+    }
+
+    #[test]
+    fn hanging_faces_list_midpoints() {
+        // the coarse cell next to the refined one has its shared side split in four
+        let m = testmesh::refined_block(2, 1.0, &[[0, 0, 0]]);
+        let cf = CellFaces::new(&m);
+        let coarse = (0..m.n_cells()).find(|&c| m.cell_level[c] == 0).unwrap();
+        let nbr_fine = cf
+            .of(coarse)
+            .iter()
+            .filter(|&&f| {
+                (f as usize) < m.n_interior_faces() && {
+                    let o = m.owner[f as usize] as usize;
+                    let n = m.neighbour[f as usize] as usize;
+                    m.cell_level[if o == coarse { n } else { o }] == 1
+                }
+            })
+            .count();
+        assert_eq!(nbr_fine, 4);
+        // its four sides touching the refined cell along an edge carry that edge's midpoint
+        let nverts: usize = cf
+            .of(coarse)
+            .iter()
+            .map(|&f| m.face(f as usize).len())
+            .sum();
+        // exact by construction: 4 sub-faces of 4 vertices + 4 sides of 5 + the far side of 4
+        assert_eq!(nverts, 16 + 20 + 4);
+    }
+
+    #[test]
+    fn broken_meshes_are_caught() {
+        let r = broken::missing_face().validate();
+        assert!(!r.is_valid());
+        let k = kinds(&r);
+        assert!(
+            k.contains(&"open_cell") && k.contains(&"unmatched_edge"),
+            "{k:?}"
+        );
+        assert!(k.contains(&"volume_mismatch"), "{k:?}");
+        assert!(r
+            .problems
+            .iter()
+            .any(|p| matches!(p, Problem::OpenCell { cell: 1, .. })));
+
+        let r = broken::flipped_face().validate();
+        let open: Vec<u32> = r
+            .problems
+            .iter()
+            .filter_map(|p| match p {
+                Problem::OpenCell { cell, .. } => Some(*cell),
+                _ => None,
+            })
+            .collect();
+        assert_eq!(open, vec![0, 1]);
+        assert!(kinds(&r).contains(&"unmatched_edge"));
+
+        let r = broken::duplicated_point().validate();
+        assert!(r
+            .problems
+            .iter()
+            .any(|p| matches!(p, Problem::DuplicatePoint { point: 12, .. })));
+        assert!(kinds(&r).contains(&"unmatched_edge"));
+
+        let r = broken::t_junction().validate();
+        let k = kinds(&r);
+        assert!(
+            k.contains(&"unmatched_edge") && k.contains(&"vertex_on_edge"),
+            "{k:?}"
+        );
+        // closure still holds: a T-junction is invisible to the area sum
+        assert!(!k.contains(&"open_cell"));
+        for p in &r.problems {
+            if let Problem::VertexOnEdge { at, .. } = p {
+                // the hanging vertices are edge midpoints of the refined cell [0,1]^3
+                assert!(at.to_array().iter().any(|c| (c - 0.5).abs() < 1e-12));
+            }
+        }
+
+        let r = broken::open_cell().validate();
+        let k = kinds(&r);
+        assert!(
+            k.contains(&"open_cell") && k.contains(&"unmatched_edge"),
+            "{k:?}"
+        );
+    }
+
+    #[test]
+    fn array_defects_are_caught() {
+        let good = testmesh::block(2, 1.0);
+        let mut m = good.clone();
+        m.face_vertices[3] = 1000;
+        let r = m.validate();
+        assert!(!r.geometry_checked);
+        assert_eq!(
+            r.problems,
+            vec![Problem::VertexOutOfRange {
+                face: 0,
+                vertex: 1000
+            }]
+        );
+
+        let mut m = good.clone();
+        m.neighbour[2] = m.owner[2];
+        assert!(kinds(&m.validate()).contains(&"owner_is_neighbour"));
+
+        let mut m = good.clone();
+        m.face_offsets.pop();
+        assert!(kinds(&m.validate()).contains(&"array_length"));
+
+        let mut m = good.clone();
+        m.patches[1].start += 1;
+        assert!(kinds(&m.validate()).contains(&"patch_layout"));
+
+        let mut m = good.clone();
+        m.patches.pop();
+        assert!(kinds(&m.validate()).contains(&"boundary_not_covered"));
+
+        let mut m = good.clone();
+        let a = m.face_offsets[0] as usize;
+        m.face_vertices[a + 1] = m.face_vertices[a];
+        assert!(kinds(&m.validate()).contains(&"degenerate_face"));
+
+        let mut m = good.clone();
+        m.cell_level.push(0);
+        m.cell_cut.push(0);
+        m.cell_region.push(0);
+        assert!(kinds(&m.validate()).contains(&"empty_cell"));
+    }
+
+    #[test]
+    fn report_is_thread_count_independent() {
+        let m = testmesh::broken::t_junction();
+        let one = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
+        let a = one.install(|| m.validate());
+        let b = m.validate();
+        assert_eq!(a, b);
+        let j = serde_json::to_string(&a).unwrap();
+        assert!(j.contains("vertex_on_edge"));
+    }
+}
