@@ -1,2 +1,731 @@
 //! The cut-cell stage: classifies octree leaves as fluid, solid or cut, clips the cut ones into
 //! polyhedra against the surface and assembles the conforming volume mesh.
+//!
+//! Pipeline of [`cut_cells`]: conforming face topology of the octree ([`topology`]), vertex
+//! classes by winding number ([`classify`]), edge crossings ([`crossing`]), face clipping
+//! ([`clip`]), closing cut leaves into pieces with wall faces ([`pieces`], feature vertices by
+//! [`feature`]), fluid-region selection, small-cell merging ([`merge`]) and assembly
+//! ([`assemble`]).
+//!
+//! Conventions: a vertex is fluid iff it is not inside (winding number below 1/2) for
+//! [`FluidSide::Outside`], the reverse for [`FluidSide::Inside`]; a crossing never sits on a
+//! grid vertex (see [`crossing::T_EPS`]), so no face has a zero-length edge.
+//!
+//! ```
+//! use octocut_cutcell::{cut_cells, CutOptions};
+//! use octocut_octree::{Domain, Octree};
+//! use octocut_surface::{Aabb, Surface, SurfaceIndex, Vec3};
+//! // a unit cube body in a 3 x 3 x 3 box, uniform 12^3 leaves
+//! let mut s = Surface::unit_cube();
+//! for v in &mut s.vertices { *v = *v * 1.01 + Vec3::splat(0.995); }
+//! let index = SurfaceIndex::new(s);
+//! let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::splat(3.0)), 1.0).unwrap();
+//! let tree = Octree::uniform(d, 2);
+//! let out = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+//! // exact: box volume minus the body volume 1.01^3
+//! assert!((out.report.fluid_volume - (27.0 - 1.01f64.powi(3))).abs() < 1e-9);
+//! ```
+
+pub mod assemble;
+pub mod classify;
+pub mod clip;
+pub mod crossing;
+pub mod feature;
+pub mod merge;
+pub mod pieces;
+#[doc(hidden)]
+pub mod test_support;
+pub mod topology;
+mod util;
+
+use assemble::{assemble, AssembleInput, RawFaces, BOUNDARY};
+use clip::ClipCtx;
+use crossing::{edge_key, EdgeTable};
+use merge::{merge_small, MergeInput};
+use octocut_octree::Octree;
+use octocut_surface::{SurfaceIndex, Vec3};
+use octocut_volmesh::{VolumeMesh, NO_REGION};
+use pieces::{CellCtx, CutChunk, Points, Scratch, LOCAL};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+use topology::Topology;
+use util::UnionFind;
+
+/// Which side of the surface is meshed.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub enum FluidSide {
+    /// Everything outside the body (winding number below 1/2).
+    #[default]
+    Outside,
+    /// The body's interior.
+    Inside,
+    /// The connected region containing this point; other regions are dropped and reported.
+    Point(Vec3),
+}
+
+/// Options of the cut-cell stage.
+///
+/// ```
+/// let o = octocut_cutcell::CutOptions::default();
+/// assert_eq!(o.small_cell_fraction, 0.5);
+/// assert_eq!(o.side_names[0], "xmin");
+/// ```
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CutOptions {
+    pub fluid: FluidSide,
+    /// Cut cells below this fraction of their full cube are merged (Berger and Giuliani: 1/2).
+    pub small_cell_fraction: f64,
+    /// Crossing normals further apart than this (degrees) mark a sharp feature.
+    pub feature_angle_deg: f64,
+    /// Put the pierce points of sharp body edges into face cut paths.
+    pub pierce_points: bool,
+    /// Patch names of the box sides: xmin, xmax, ymin, ymax, zmin, zmax.
+    pub side_names: [String; 6],
+}
+
+impl Default for CutOptions {
+    fn default() -> Self {
+        CutOptions {
+            fluid: FluidSide::Outside,
+            small_cell_fraction: 0.5,
+            feature_angle_deg: 30.0,
+            pierce_points: true,
+            side_names: ["xmin", "xmax", "ymin", "ymax", "zmin", "zmax"].map(String::from),
+        }
+    }
+}
+
+/// Why the cut-cell stage failed.
+#[derive(Debug, thiserror::Error, PartialEq)]
+pub enum CutError {
+    #[error("small_cell_fraction must lie in [0, 1), got {0}")]
+    BadFraction(f64),
+    #[error("feature_angle_deg must lie in [0, 180], got {0}")]
+    BadFeatureAngle(f64),
+    #[error("{given} leaf region tags given for {leaves} leaves")]
+    RegionCount { given: usize, leaves: usize },
+    #[error("the fluid point {0:?} lies outside the domain box")]
+    PointOutsideDomain([f64; 3]),
+    #[error("the fluid point {0:?} lies in no fluid cell")]
+    PointNotInFluid([f64; 3]),
+    #[error("the mesh would need {0} points, more than the 2^31 supported")]
+    TooManyPoints(u64),
+}
+
+/// A piece of fluid dropped for being tiny and without a fluid neighbour.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DroppedPiece {
+    pub volume: f64,
+    /// The centroid of the piece's vertices (approximately inside it).
+    pub point: [f64; 3],
+}
+
+/// A fluid region not containing the fluid point.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DroppedRegion {
+    pub volume: f64,
+    pub cells: usize,
+    /// A point inside the region (an uncut cell's centre when there is one).
+    pub point: [f64; 3],
+}
+
+/// A cell where the surface has topology the vertex classes cannot see.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CellWarning {
+    pub leaf: u32,
+    pub level: u8,
+    pub centre: [f64; 3],
+    pub reason: String,
+}
+
+/// What the stage did.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct CutReport {
+    pub leaves: usize,
+    pub fluid_leaves: usize,
+    pub solid_leaves: usize,
+    pub cut_leaves: usize,
+    pub winding_evaluations: usize,
+    pub cells: usize,
+    pub cut_cells: usize,
+    /// Cells absorbed into a neighbour by small-cell merging.
+    pub merged_cells: usize,
+    pub fluid_volume: f64,
+    pub wall_area: f64,
+    pub dropped_pieces: Vec<DroppedPiece>,
+    pub dropped_regions: Vec<DroppedRegion>,
+    /// "Feature below cell size" warnings (at most [`MAX_WARNINGS`] listed).
+    pub warnings: Vec<CellWarning>,
+    pub warnings_total: usize,
+}
+
+/// Most warnings listed in a report; the total is always counted.
+pub const MAX_WARNINGS: usize = 10_000;
+
+/// The mesh and the report.
+#[derive(Clone, Debug)]
+pub struct CutOutput {
+    pub mesh: VolumeMesh,
+    pub report: CutReport,
+}
+
+/// Cuts `tree` by the surface of `index` into a conforming volume mesh.
+pub fn cut_cells(
+    tree: &Octree,
+    index: &SurfaceIndex,
+    opts: &CutOptions,
+) -> Result<CutOutput, CutError> {
+    cut_cells_with_regions(tree, index, opts, None)
+}
+
+const SOLID: u8 = 0;
+const FLUID: u8 = 1;
+const CUT: u8 = 2;
+
+/// As [`cut_cells`], copying a per-leaf region tag into the cells (merged cells take their
+/// first leaf's tag; [`NO_REGION`] without tags).
+pub fn cut_cells_with_regions(
+    tree: &Octree,
+    index: &SurfaceIndex,
+    opts: &CutOptions,
+    leaf_region: Option<&[u16]>,
+) -> Result<CutOutput, CutError> {
+    let leaves = tree.leaves();
+    let domain = &tree.domain;
+    if !(0.0..1.0).contains(&opts.small_cell_fraction) {
+        return Err(CutError::BadFraction(opts.small_cell_fraction));
+    }
+    if !(0.0..=180.0).contains(&opts.feature_angle_deg) {
+        return Err(CutError::BadFeatureAngle(opts.feature_angle_deg));
+    }
+    if let Some(r) = leaf_region {
+        if r.len() != leaves.len() {
+            return Err(CutError::RegionCount {
+                given: r.len(),
+                leaves: leaves.len(),
+            });
+        }
+    }
+    let fluid_inside = match opts.fluid {
+        FluidSide::Outside => false,
+        FluidSide::Inside => true,
+        FluidSide::Point(p) => {
+            if !domain.bounds().contains_point(p) || !p.is_finite() {
+                return Err(CutError::PointOutsideDomain(p.to_array()));
+            }
+            index.is_inside(p)
+        }
+    };
+    let cos_feature = opts.feature_angle_deg.to_radians().cos();
+    let mut report = CutReport {
+        leaves: leaves.len(),
+        ..Default::default()
+    };
+
+    let topo = Topology::build(tree);
+    let cls = classify::classify(tree, index, &topo, fluid_inside);
+    report.winding_evaluations = cls.evaluations;
+    let fluid = &cls.fluid;
+    // leaf status from the classes of all vertices on its boundary
+    let face_mix: Vec<u8> = (0..topo.faces.len() as u32)
+        .into_par_iter()
+        .map(|f| {
+            let mut m = 0u8;
+            for &p in topo.face(f) {
+                m |= if fluid[p as usize] { 1 } else { 2 };
+            }
+            m
+        })
+        .collect();
+    let mut mix = vec![0u8; leaves.len()];
+    for (f, face) in topo.faces.iter().enumerate() {
+        mix[face.e as usize] |= face_mix[f];
+        if !face.is_boundary() {
+            mix[face.n as usize] |= face_mix[f];
+        }
+    }
+    let status: Vec<u8> = mix
+        .iter()
+        .map(|&m| {
+            if m == 3 {
+                CUT
+            } else if m == 1 {
+                FLUID
+            } else {
+                SOLID
+            }
+        })
+        .collect();
+    report.fluid_leaves = status.iter().filter(|&&s| s == FLUID).count();
+    report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
+    report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
+
+    // edges to query: all edges of faces that are mixed or bound a touched leaf
+    let n_grid = topo.grid.len() as u32;
+    let keys: Vec<u64> = (0..topo.faces.len() as u32)
+        .into_par_iter()
+        .flat_map_iter(|f| {
+            let face = topo.faces[f as usize];
+            let need = face_mix[f as usize] == 3
+                || cls.touched[face.e as usize]
+                || (!face.is_boundary() && cls.touched[face.n as usize]);
+            let pts = topo.face(f);
+            let n = if need { pts.len() } else { 0 };
+            (0..n).map(move |i| edge_key(pts[i], pts[(i + 1) % n]))
+        })
+        .collect();
+    let gpos = |p: u32| domain.point(topo.grid[p as usize]);
+    let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, keys);
+    let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
+    if pierce_base >= LOCAL as u64 / 2 {
+        return Err(CutError::TooManyPoints(pierce_base));
+    }
+    let pierce_base = pierce_base as u32;
+    let clip = ClipCtx {
+        domain,
+        index,
+        topo: &topo,
+        fluid,
+        edges: &edges,
+        fluid_inside,
+        cos_feature,
+        n_grid,
+        pierce_cuts: opts.pierce_points,
+    }
+    .run(pierce_base);
+    let pts = Points {
+        domain,
+        grid: &topo.grid,
+        crossings: &edges.crossings,
+        pierce: &clip.pierce,
+        n_grid,
+        pierce_base,
+    };
+    let cut_leaves: Vec<u32> = (0..leaves.len() as u32)
+        .filter(|&l| status[l as usize] == CUT)
+        .collect();
+    let cctx = CellCtx {
+        tree,
+        index,
+        topo: &topo,
+        clip: &clip,
+        pts: &pts,
+        cos_feature,
+    };
+    let chunks: Vec<CutChunk> = cut_leaves
+        .par_chunks(64)
+        .map_init(Scratch::default, |s, ls| {
+            let mut out = CutChunk::default();
+            for &l in ls {
+                cctx.close_leaf(l, s, &mut out);
+            }
+            out
+        })
+        .collect();
+
+    // warnings: edges crossed more than once, leaves with a surface inside but uniform classes
+    let warn = |l: u32, reason: &str, report: &mut CutReport| {
+        report.warnings_total += 1;
+        if report.warnings.len() < MAX_WARNINGS {
+            let k = leaves[l as usize];
+            report.warnings.push(CellWarning {
+                leaf: l,
+                level: k.level(),
+                centre: domain.key_box(k).center().to_array(),
+                reason: reason.to_string(),
+            });
+        }
+    };
+    let multi: Vec<u8> = (0..leaves.len() as u32)
+        .into_par_iter()
+        .map(|l| {
+            if status[l as usize] == SOLID || !cls.touched[l as usize] {
+                return 0;
+            }
+            for &f in topo.faces_of(l) {
+                let p = topo.face(f);
+                for i in 0..p.len() {
+                    if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
+                        if edges.hits[e] >= 2 {
+                            return 1;
+                        }
+                    }
+                }
+            }
+            if status[l as usize] == FLUID {
+                // a surface vertex deep inside a uniform leaf: a body part smaller than the cell
+                let b = domain.key_box(leaves[l as usize]);
+                let m = 0.1 * b.extent().x;
+                let inner =
+                    octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
+                let s = index.surface();
+                let mut tris = Vec::new();
+                index.triangles_in_box(&b, &mut tris);
+                if tris.iter().any(|&t| {
+                    s.corners(t as usize)
+                        .iter()
+                        .any(|c| inner.contains_point(*c))
+                }) {
+                    return 2;
+                }
+            }
+            0
+        })
+        .collect();
+    for (l, &m) in multi.iter().enumerate() {
+        match m {
+            1 => warn(
+                l as u32,
+                "feature below cell size: the surface crosses a cell edge more than once",
+                &mut report,
+            ),
+            2 => warn(
+                l as u32,
+                "feature below cell size: surface inside a cell without crossing its edges",
+                &mut report,
+            ),
+            _ => {}
+        }
+    }
+    for ch in &chunks {
+        for &(l, r) in &ch.warnings {
+            warn(l, r, &mut report);
+        }
+    }
+
+    // cells: uniform fluid leaves one each, cut leaves their pieces, in leaf order
+    let mut leaf_cell = vec![u32::MAX; leaves.len()];
+    let mut cell_leaf: Vec<u32> = Vec::new();
+    let mut cell_vol: Vec<f64> = Vec::new();
+    let mut cell_cut: Vec<u8> = Vec::new();
+    {
+        let mut pieces = chunks.iter().flat_map(|c| c.n_pieces.iter().copied());
+        let mut vols = chunks.iter().flat_map(|c| c.piece_volume.iter().copied());
+        for (l, &s) in status.iter().enumerate() {
+            let n = match s {
+                FLUID => 1,
+                CUT => pieces.next().unwrap(),
+                _ => 0,
+            };
+            leaf_cell[l] = cell_leaf.len() as u32;
+            for _ in 0..n {
+                cell_leaf.push(l as u32);
+                cell_cut.push((s == CUT) as u8);
+                cell_vol.push(if s == CUT {
+                    vols.next().unwrap()
+                } else {
+                    domain.key_box(leaves[l]).volume()
+                });
+            }
+        }
+    }
+    let n_raw = cell_leaf.len();
+    // all point positions
+    let mut points: Vec<Vec3> = Vec::with_capacity(pierce_base as usize + clip.pierce.len());
+    points.extend(topo.grid.iter().map(|&g| domain.point(g)));
+    points.extend(edges.crossings.iter().map(|c| c.point));
+    points.extend_from_slice(&clip.pierce);
+    // polygon -> cell on each side
+    let npoly = clip.poly_off.len() - 1;
+    let mut poly_e = vec![u32::MAX; npoly];
+    let mut poly_n = vec![u32::MAX; npoly];
+    for (f, face) in topo.faces.iter().enumerate() {
+        for p in clip.polys_of(f as u32) {
+            if status[face.e as usize] == FLUID {
+                poly_e[p as usize] = leaf_cell[face.e as usize];
+            }
+            if !face.is_boundary() && status[face.n as usize] == FLUID {
+                poly_n[p as usize] = leaf_cell[face.n as usize];
+            }
+        }
+    }
+    let mut raw = RawFaces::default();
+    {
+        let mut cut_iter = cut_leaves.iter();
+        let mut wall_store = RawFaces::default();
+        for ch in &chunks {
+            // chunk-local piece index -> cell id
+            let mut map = Vec::with_capacity(ch.piece_volume.len());
+            for &n in &ch.n_pieces {
+                let l = *cut_iter.next().unwrap();
+                for j in 0..n {
+                    map.push(leaf_cell[l as usize] + j);
+                }
+            }
+            for &(p, is_e, pc) in &ch.poly_piece {
+                if is_e {
+                    poly_e[p as usize] = map[pc as usize];
+                } else {
+                    poly_n[p as usize] = map[pc as usize];
+                }
+            }
+            let base = points.len() as u32;
+            points.extend_from_slice(&ch.new_pts);
+            let mut off = 0usize;
+            let mut buf: Vec<u32> = Vec::new();
+            for (w, &len) in ch.wall_len.iter().enumerate() {
+                buf.clear();
+                buf.extend(ch.wall_pts[off..off + len as usize].iter().map(|&q| {
+                    if q & LOCAL != 0 {
+                        base + (q & !LOCAL)
+                    } else {
+                        q
+                    }
+                }));
+                off += len as usize;
+                wall_store.push(
+                    &buf,
+                    map[ch.wall_piece[w] as usize],
+                    BOUNDARY,
+                    6 + ch.wall_tag[w],
+                );
+            }
+        }
+        for (f, face) in topo.faces.iter().enumerate() {
+            for p in clip.polys_of(f as u32) {
+                let a = poly_e[p as usize];
+                debug_assert!(a != u32::MAX);
+                if face.is_boundary() {
+                    raw.push(
+                        clip.poly(p),
+                        a,
+                        BOUNDARY,
+                        (face.n - topology::SIDE_BASE) as u32,
+                    );
+                } else {
+                    let b = poly_n[p as usize];
+                    debug_assert!(b != u32::MAX);
+                    if a == u32::MAX || b == u32::MAX {
+                        continue;
+                    }
+                    raw.push(clip.poly(p), a, b, 0);
+                }
+            }
+        }
+        for w in 0..wall_store.len() {
+            raw.push(
+                wall_store.face(w),
+                wall_store.a[w],
+                BOUNDARY,
+                wall_store.kind[w],
+            );
+        }
+    }
+    if points.len() as u64 >= u32::MAX as u64 / 2 {
+        return Err(CutError::TooManyPoints(points.len() as u64));
+    }
+
+    // fluid region selection
+    let mut alive = vec![true; n_raw];
+    if let FluidSide::Point(p) = opts.fluid {
+        let mut uf = UnionFind::new(n_raw);
+        for i in 0..raw.len() {
+            if raw.b[i] != BOUNDARY {
+                uf.union(raw.a[i], raw.b[i]);
+            }
+        }
+        let start = point_cell(tree, &raw, &points, &leaf_cell, &status, &cell_leaf, p)
+            .ok_or(CutError::PointNotInFluid(p.to_array()))?;
+        let keep = uf.find(start);
+        // (root, region, has an uncut cell)
+        let mut regions: Vec<(u32, DroppedRegion, bool)> = Vec::new();
+        for c in 0..n_raw as u32 {
+            let r = uf.find(c);
+            if r == keep {
+                continue;
+            }
+            alive[c as usize] = false;
+            let k = leaves[cell_leaf[c as usize] as usize];
+            let centre = domain.key_box(k).center().to_array();
+            let i = match regions.binary_search_by_key(&r, |x| x.0) {
+                Ok(i) => i,
+                Err(i) => {
+                    regions.insert(
+                        i,
+                        (
+                            r,
+                            DroppedRegion {
+                                volume: 0.0,
+                                cells: 0,
+                                point: centre,
+                            },
+                            false,
+                        ),
+                    );
+                    i
+                }
+            };
+            let reg = &mut regions[i];
+            reg.1.volume += cell_vol[c as usize];
+            reg.1.cells += 1;
+            if cell_cut[c as usize] == 0 && !reg.2 {
+                // an uncut cell's centre is certainly inside the region
+                reg.1.point = centre;
+                reg.2 = true;
+            }
+        }
+        report.dropped_regions = regions.into_iter().map(|x| x.1).collect();
+    }
+
+    // small-cell merging
+    let cell_full: Vec<f64> = cell_leaf
+        .iter()
+        .map(|&l| domain.key_box(leaves[l as usize]).volume())
+        .collect();
+    let iface: Vec<(u32, u32, f64)> = (0..raw.len())
+        .into_par_iter()
+        .filter(|&i| raw.b[i] != BOUNDARY)
+        .map(|i| {
+            let f = raw.face(i);
+            let mut n = Vec3::ZERO;
+            for j in 0..f.len() {
+                n += points[f[j] as usize].cross(points[f[(j + 1) % f.len()] as usize]);
+            }
+            (raw.a[i], raw.b[i], 0.5 * n.length())
+        })
+        .collect();
+    let merged = merge_small(&MergeInput {
+        volume: &cell_vol,
+        full: &cell_full,
+        alive: &alive,
+        faces: &iface,
+        fraction: opts.small_cell_fraction,
+    });
+    report.merged_cells = merged.merged;
+    let mut uf = merged.uf;
+    for &t in &merged.tiny {
+        // tiny isolated groups: report with their volume and a vertex centroid
+        let mut c = Vec3::ZERO;
+        let mut n = 0.0f64;
+        for i in 0..raw.len() {
+            if uf.find(raw.a[i]) == t {
+                for &q in raw.face(i) {
+                    c += points[q as usize];
+                    n += 1.0;
+                }
+            }
+        }
+        report.dropped_pieces.push(DroppedPiece {
+            volume: merged.group_volume[t as usize],
+            point: (c / n.max(1.0)).to_array(),
+        });
+    }
+    let mut cell_id = vec![u32::MAX; n_raw];
+    let mut root_id = vec![u32::MAX; n_raw];
+    let mut n_cells = 0u32;
+    let mut level = Vec::new();
+    let mut cut = Vec::new();
+    let mut region = Vec::new();
+    for c in 0..n_raw as u32 {
+        if !alive[c as usize] {
+            continue;
+        }
+        let r = uf.find(c);
+        if merged.tiny.binary_search(&r).is_ok() {
+            continue;
+        }
+        if root_id[r as usize] == u32::MAX {
+            root_id[r as usize] = n_cells;
+            n_cells += 1;
+            let l = cell_leaf[c as usize] as usize;
+            level.push(leaves[l].level());
+            cut.push(0u8);
+            region.push(leaf_region.map(|t| t[l]).unwrap_or(NO_REGION));
+        }
+        let id = root_id[r as usize];
+        cell_id[c as usize] = id;
+        let l = cell_leaf[c as usize] as usize;
+        level[id as usize] = level[id as usize].min(leaves[l].level());
+        cut[id as usize] |= cell_cut[c as usize];
+        report.fluid_volume += cell_vol[c as usize];
+    }
+    report.cells = n_cells as usize;
+    report.cut_cells = cut.iter().filter(|&&c| c != 0).count();
+    let mesh = assemble(AssembleInput {
+        points: &points,
+        faces: &raw,
+        cell_id: &cell_id,
+        n_cells: n_cells as usize,
+        cell_level: level,
+        cell_cut: cut,
+        cell_region: region,
+        tag_names: &index.surface().tag_names,
+        side_names: &opts.side_names,
+    });
+    report.wall_area = wall_area(&mesh);
+    Ok(CutOutput { mesh, report })
+}
+
+/// Total area of the wall patches.
+fn wall_area(m: &VolumeMesh) -> f64 {
+    let mut a = 0.0;
+    for p in &m.patches {
+        if let octocut_volmesh::PatchKind::Wall { .. } = p.kind {
+            for f in p.start..p.start + p.count {
+                let v = m.face(f as usize);
+                let mut n = Vec3::ZERO;
+                for j in 0..v.len() {
+                    n += m.points[v[j] as usize].cross(m.points[v[(j + 1) % v.len()] as usize]);
+                }
+                a += 0.5 * n.length();
+            }
+        }
+    }
+    a
+}
+
+/// The raw cell containing `p`: the leaf's cell, or among a cut leaf's pieces the one whose
+/// closed boundary winds around `p` (solid-angle sum, Van Oosterom and Strackee 1983).
+fn point_cell(
+    tree: &Octree,
+    raw: &RawFaces,
+    points: &[Vec3],
+    leaf_cell: &[u32],
+    status: &[u8],
+    cell_leaf: &[u32],
+    p: Vec3,
+) -> Option<u32> {
+    let d = &tree.domain;
+    let u = d.unit();
+    let g = ((p - d.origin) / u).floor();
+    let ext = d.grid_extent();
+    let gi = [0, 1, 2].map(|i| (g[i].max(0.0) as u64).min(ext[i] as u64 - 1) as u32);
+    let l = tree.locate(gi)? as usize;
+    match status[l] {
+        FLUID => Some(leaf_cell[l]),
+        CUT => {
+            let first = leaf_cell[l];
+            let mut c = first;
+            while (c as usize) < cell_leaf.len() && cell_leaf[c as usize] == l as u32 {
+                let mut w = 0.0;
+                for i in 0..raw.len() {
+                    let sign = if raw.a[i] == c {
+                        1.0
+                    } else if raw.b[i] == c {
+                        -1.0
+                    } else {
+                        continue;
+                    };
+                    let f = raw.face(i);
+                    for j in 1..f.len() - 1 {
+                        w += sign
+                            * octocut_surface::winding::solid_angle(
+                                p,
+                                points[f[0] as usize],
+                                points[f[j] as usize],
+                                points[f[j + 1] as usize],
+                            );
+                    }
+                }
+                if w / (4.0 * std::f64::consts::PI) > 0.5 {
+                    return Some(c);
+                }
+                c += 1;
+            }
+            None
+        }
+        _ => None,
+    }
+}
+#[cfg(test)]
+mod tests;
