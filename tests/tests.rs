@@ -1,2 +1,3 @@
 //! End-to-end and reference checks: one integration binary, one module per topic.
 mod spatial_queries;
+mod pipeline_e2e;

@@ -1,16 +1,23 @@
 //! The pipeline: load a surface once, then mesh it with any number of case specifications.
 //!
-//! Stages run in order (surface intake, octree refinement and balance, cut cells and assembly,
-//! validation, quality); each records its time and peak memory. A mesh is returned only after
+//! Stages run in order (octree refinement and balance, cut cells and assembly, validation,
+//! quality); each records its time and peak memory. A mesh is returned only after
 //! `VolumeMesh::validate` proved it: a failed validation is an internal error naming the cells.
 
-use crate::report::{MeshReport, Plan};
+use crate::report::{CellCounts, MeshReport, PatchFigures, Plan, PlannedSize};
 use crate::spec::{CaseSpec, FluidSpec, RegionShapeSpec};
 use crate::stages::{Hooks, Stage, StageClock};
-use octocut_octree::{Domain, RefineSpec, RegionShape, SizeRegion, SurfaceRule, TagSel};
-use octocut_surface::{HealthReport, RepairOptions, Surface, SurfaceIndex, Vec3};
-use octocut_volmesh::VolumeMesh;
+use octocut_cutcell::{cut_cells_with_regions, CutOptions, FluidSide};
+use octocut_octree::{
+    estimate, leaf_regions, refine, Domain, GapSpec, LevelPlan, OctreeError, RefineSpec,
+    RegionShape, SizeRegion, SurfaceRule, TagSel,
+};
+use octocut_surface::{
+    health, load_stl_files, repair, HealthReport, RepairOptions, Surface, SurfaceIndex, Vec3,
+};
+use octocut_volmesh::{quality, PatchKind, QualityReport, VolumeMesh, NO_REGION};
 use std::path::PathBuf;
+use std::time::Instant;
 
 /// Why a run stopped.
 #[derive(Debug, thiserror::Error)]
@@ -25,12 +32,12 @@ pub enum MeshError {
     /// A limit refused the run before it started (exit code 3).
     #[error("refused: {0}")]
     Limit(String),
-    #[error("cancelled")]
+    #[error("cancelled by the caller")]
     Cancelled,
     /// A bug: the stages produced something invalid (exit code 1).
-    #[error("internal error (this is a bug, please report it with the case): {0}")]
+    #[error("internal error, this is a bug (please report it with the case): {0}")]
     Internal(String),
-    #[error("writing {path}: {message}")]
+    #[error("cannot write {path}: {message}")]
     Write { path: PathBuf, message: String },
 }
 
@@ -45,16 +52,425 @@ impl MeshError {
     }
 }
 
-/// A loaded, repaired and indexed surface, ready to mesh many times.
+/// A loaded, repaired and indexed surface, ready to mesh many times: the BVH and the winding
+/// tree are built once here and shared by every [`Mesher::mesh`] call.
 pub struct Mesher {
     index: SurfaceIndex,
     health: HealthReport,
-    files: Vec<PathBuf>,
+    files: Vec<String>,
     load_seconds: f64,
 }
 
-/// A finished run: the validated mesh and what was asked and built.
+/// A finished run: the validated mesh, its quality and the report.
 pub struct Outcome {
     pub mesh: VolumeMesh,
+    pub quality: QualityReport,
     pub report: MeshReport,
+    /// The domain actually meshed.
+    pub domain: Domain,
+}
+
+impl Mesher {
+    /// Loads, repairs and indexes the surface files of `spec`.
+    pub fn load(spec: &CaseSpec) -> Result<Mesher, MeshError> {
+        let paths = spec.surface_paths();
+        if paths.is_empty() {
+            return Err(MeshError::Config(
+                "no surface files given (surfaces.files or --surface)".into(),
+            ));
+        }
+        let t0 = Instant::now();
+        let surface = load_stl_files(&paths)?;
+        let mut opts = RepairOptions::default();
+        if let Some(w) = spec.surfaces.weld_tolerance {
+            opts.weld_tolerance = w;
+        }
+        let mut m = Mesher::from_surface(surface, &opts);
+        m.files = paths.iter().map(|p| p.display().to_string()).collect();
+        m.load_seconds = t0.elapsed().as_secs_f64();
+        Ok(m)
+    }
+
+    /// Repairs and indexes a surface already in memory.
+    ///
+    /// ```
+    /// use octocut::pipeline::Mesher;
+    /// use octocut_surface::{RepairOptions, Surface};
+    /// let m = Mesher::from_surface(Surface::unit_cube(), &RepairOptions::default());
+    /// assert!(m.health().is_watertight());
+    /// ```
+    pub fn from_surface(mut surface: Surface, opts: &RepairOptions) -> Mesher {
+        let t0 = Instant::now();
+        let rep = repair(&mut surface, opts);
+        let health = health(&surface, &rep);
+        let index = SurfaceIndex::new(surface);
+        Mesher {
+            index,
+            health,
+            files: Vec::new(),
+            load_seconds: t0.elapsed().as_secs_f64(),
+        }
+    }
+
+    pub fn index(&self) -> &SurfaceIndex {
+        &self.index
+    }
+
+    pub fn health(&self) -> &HealthReport {
+        &self.health
+    }
+
+    /// One line about the loaded surface.
+    pub fn load_summary(&self) -> String {
+        let h = &self.health;
+        format!(
+            "surface: {} triangles, {} tags, {} components ({} closed), {} open edges, {} intersecting pairs; repaired: {} welded vertices, {} re-oriented, {} duplicates, {} degenerates ({:.2} s)",
+            h.triangles,
+            self.index.surface().tag_names.len(),
+            h.components,
+            h.closed_component_count,
+            h.open_edges,
+            h.intersecting_pairs,
+            h.vertices_welded,
+            h.reoriented,
+            h.duplicates_removed,
+            h.degenerates_removed,
+            self.load_seconds
+        )
+    }
+
+    fn domain(&self, spec: &CaseSpec) -> Result<Domain, MeshError> {
+        let bodies = self.index.surface().bounding_box();
+        let requested = spec.requested_box(&bodies);
+        Domain::new(requested, spec.domain.base_size).map_err(|e| MeshError::Config(e.to_string()))
+    }
+
+    /// The refinement settings `spec` asks for.
+    pub fn refine_spec(&self, spec: &CaseSpec) -> RefineSpec {
+        let s = &spec.surfaces;
+        let mut r = RefineSpec::default();
+        r.surface.push(SurfaceRule {
+            tag: TagSel::All,
+            size: s.size,
+            finest_size: s.finest_size,
+        });
+        for (name, size) in &s.sizes {
+            let finest = s.finest_size.map(|f| f.min(*size));
+            r.surface.push(SurfaceRule {
+                tag: TagSel::Name(name.clone()),
+                size: *size,
+                finest_size: finest,
+            });
+        }
+        r.feature_angle_deg = s.finest_size.map(|_| s.feature_angle);
+        r.gap = spec.gaps.as_ref().map(|g| GapSpec {
+            cells: g.cells,
+            finest_size: g.finest_size,
+            max_width: None,
+        });
+        r.regions = spec
+            .regions
+            .iter()
+            .map(|g| {
+                let v = |a: [f64; 3]| Vec3::from_array(a);
+                let shape = match &g.shape {
+                    RegionShapeSpec::Box { min, max } => RegionShape::Box {
+                        min: v(*min),
+                        max: v(*max),
+                    },
+                    RegionShapeSpec::Sphere { center, radius } => RegionShape::Sphere {
+                        center: v(*center),
+                        radius: *radius,
+                    },
+                    RegionShapeSpec::Cylinder { a, b, radius } => RegionShape::Cylinder {
+                        a: v(*a),
+                        b: v(*b),
+                        radius: *radius,
+                    },
+                };
+                SizeRegion {
+                    name: g.name.clone(),
+                    shape,
+                    size: g.size,
+                    grow_distance: g.grow,
+                }
+            })
+            .collect();
+        r.transition_layers = spec.transition_layers;
+        r.max_leaves = Some(spec.limits.max_cells.saturating_mul(2));
+        r
+    }
+
+    /// What a run of `spec` will build: the box, the levels and the estimated size.
+    pub fn plan(&self, spec: &CaseSpec) -> Result<Plan, MeshError> {
+        let domain = self.domain(spec)?;
+        let rspec = self.refine_spec(spec);
+        let levels = LevelPlan::new(&domain, self.index.surface(), &rspec).map_err(octree_error)?;
+        let mut rspec_est = rspec.clone();
+        rspec_est.max_leaves = None;
+        let est = estimate(&domain, &self.index, &rspec_est).map_err(octree_error)?;
+        let b = domain.bounds();
+        Ok(Plan {
+            domain_box: [b.min.x, b.min.y, b.min.z, b.max.x, b.max.y, b.max.z],
+            base_cells: domain.counts,
+            base_size: domain.base_size,
+            levels: levels
+                .entries
+                .iter()
+                .map(|e| PlannedSize {
+                    request: e.request.clone(),
+                    size: e.size,
+                    level: e.level,
+                    cell_size: e.cell_size,
+                })
+                .collect(),
+            estimated_cells: est.leaves,
+            // the whole process: tree, mesh and writers, about 400 bytes a cell at the most
+            estimated_memory_bytes: est.memory_bytes.max(est.leaves.saturating_mul(400)),
+            max_cells: spec.limits.max_cells,
+            max_memory_bytes: spec.limits.max_memory_bytes,
+        })
+    }
+
+    /// Refuses a plan that exceeds the case's limits.
+    pub fn check_limits(&self, plan: &Plan) -> Result<(), MeshError> {
+        if plan.estimated_cells > plan.max_cells {
+            return Err(MeshError::Limit(format!(
+                "the mesh would have about {} cells, above the limit of {} (limits.max_cells): use larger sizes or raise the limit",
+                plan.estimated_cells, plan.max_cells
+            )));
+        }
+        if plan.estimated_memory_bytes > plan.max_memory_bytes {
+            return Err(MeshError::Limit(format!(
+                "the run would need about {:.1} GiB, above the limit of {:.1} GiB (limits.max_memory_gb): use larger sizes or raise the limit",
+                plan.estimated_memory_bytes as f64 / (1u64 << 30) as f64,
+                plan.max_memory_bytes as f64 / (1u64 << 30) as f64
+            )));
+        }
+        Ok(())
+    }
+
+    fn fluid_side(&self, spec: &CaseSpec, domain: &Domain) -> Result<FluidSide, MeshError> {
+        Ok(match &spec.fluid {
+            FluidSpec::Outside => FluidSide::Outside,
+            FluidSpec::Inside => FluidSide::Inside,
+            FluidSpec::Point(p, span) => {
+                let p = Vec3::from_array(*p);
+                if !domain.bounds().contains_point(p) {
+                    return Err(crate::spec::SpecError {
+                        pos: spec.pos_of(span.as_ref()),
+                        message: format!("fluid.point {p:?} lies outside the domain box"),
+                    }
+                    .into());
+                }
+                let w = self.index.winding_number(p);
+                if w >= 0.5 {
+                    return Err(crate::spec::SpecError {
+                        pos: spec.pos_of(span.as_ref()),
+                        message: format!("fluid.point {p:?} lies inside the body (winding number {w:.3}); give a point in the fluid"),
+                    }
+                    .into());
+                }
+                FluidSide::Point(p)
+            }
+        })
+    }
+
+    /// Meshes the loaded surface by `spec` (its surface files are not read again).
+    ///
+    /// # Errors
+    /// Configuration problems, a refused limit, cancellation through `hooks`, or an internal
+    /// error when the built mesh fails validation.
+    pub fn mesh(&self, spec: &CaseSpec, hooks: &Hooks) -> Result<Outcome, MeshError> {
+        let domain = self.domain(spec)?;
+        let fluid = self.fluid_side(spec, &domain)?;
+        let plan = self.plan(spec)?;
+        self.check_limits(&plan)?;
+        let rspec = self.refine_spec(spec);
+        let mut clock = StageClock::default();
+        let check = || {
+            if hooks.cancelled() {
+                Err(MeshError::Cancelled)
+            } else {
+                Ok(())
+            }
+        };
+
+        check()?;
+        let refined = clock.run(hooks, Stage::Refine, "leaves", || {
+            let r = refine(&domain, &self.index, &rspec).map_err(octree_error)?;
+            let n = r.tree.leaves().len() as u64;
+            Ok::<_, MeshError>((r, n))
+        })?;
+        check()?;
+        let opts = CutOptions {
+            fluid,
+            small_cell_fraction: spec.small_cell_fraction,
+            feature_angle_deg: spec.surfaces.feature_angle,
+            pierce_points: true,
+            side_names: spec.side_names.clone(),
+        };
+        let cut = clock.run(hooks, Stage::Cut, "cells", || {
+            let regions: Vec<u16> = leaf_regions(&refined.tree, &rspec.regions)
+                .into_iter()
+                .map(|r| r.unwrap_or(NO_REGION))
+                .collect();
+            let mut out = cut_cells_with_regions(&refined.tree, &self.index, &opts, Some(&regions))
+                .map_err(|e| match e {
+                    octocut_cutcell::CutError::PointNotInFluid(_)
+                    | octocut_cutcell::CutError::PointOutsideDomain(_) => {
+                        MeshError::Config(e.to_string())
+                    }
+                    other => MeshError::Internal(other.to_string()),
+                })?;
+            out.mesh.region_names = rspec.regions.iter().map(|r| r.name.clone()).collect();
+            let n = out.mesh.n_cells() as u64;
+            Ok::<_, MeshError>((out, n))
+        })?;
+        let leaves = refined.tree.leaves().len() as u64;
+        drop(refined);
+        check()?;
+        let mesh = cut.mesh;
+        let validation = clock.run(hooks, Stage::Validate, "cells", || {
+            let v = mesh.validate();
+            let n = v.n_cells as u64;
+            Ok::<_, MeshError>((v, n))
+        })?;
+        if !validation.is_valid() {
+            let first: Vec<String> = validation
+                .problems
+                .iter()
+                .take(5)
+                .map(|p| format!("{p:?}"))
+                .collect();
+            return Err(MeshError::Internal(format!(
+                "the built mesh failed validation with {} problem(s); first: {}",
+                validation.problems.len(),
+                first.join("; ")
+            )));
+        }
+        check()?;
+        let q = clock.run(hooks, Stage::Quality, "faces", || {
+            let q = quality(&mesh, |l| domain.cell_size(l));
+            Ok::<_, MeshError>((q, mesh.n_faces() as u64))
+        })?;
+
+        let report = self.report(
+            spec,
+            plan,
+            leaves,
+            &mesh,
+            &validation,
+            &q,
+            &cut.report,
+            clock,
+        );
+        Ok(Outcome {
+            mesh,
+            quality: q,
+            report,
+            domain,
+        })
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    fn report(
+        &self,
+        _spec: &CaseSpec,
+        plan: Plan,
+        leaves: u64,
+        mesh: &VolumeMesh,
+        validation: &octocut_volmesh::ValidationReport,
+        q: &QualityReport,
+        cut: &octocut_cutcell::CutReport,
+        clock: StageClock,
+    ) -> MeshReport {
+        let mut cells = CellCounts {
+            total: mesh.n_cells() as u64,
+            ..Default::default()
+        };
+        cells.hexahedra = crate::report::count_hexahedra(mesh);
+        cells.polyhedra = cells.total - cells.hexahedra;
+        cells.cut = mesh.cell_cut.iter().filter(|&&c| c != 0).count() as u64;
+        for &l in &mesh.cell_level {
+            if cells.by_level.len() <= l as usize {
+                cells.by_level.resize(l as usize + 1, 0);
+            }
+            cells.by_level[l as usize] += 1;
+        }
+        for (i, name) in mesh.region_names.iter().enumerate() {
+            let n = mesh
+                .cell_region
+                .iter()
+                .filter(|&&r| r as usize == i)
+                .count() as u64;
+            cells.by_region.push((name.clone(), n));
+        }
+        let patches = mesh
+            .patches
+            .iter()
+            .zip(&validation.patch_areas)
+            .map(|(p, a)| PatchFigures {
+                name: p.name.clone(),
+                kind: match p.kind {
+                    PatchKind::Wall { .. } => "wall".into(),
+                    PatchKind::Side { .. } => "side".into(),
+                },
+                faces: p.count as u64,
+                area: a.area,
+            })
+            .collect();
+        let mut warnings = Vec::new();
+        if cut.warnings_total > 0 {
+            let w = &cut.warnings[0];
+            warnings.push(format!(
+                "{} cell(s) hold surface detail below the cell size (first at {:?}, level {}: {}); refine there or accept the approximation",
+                cut.warnings_total, w.centre, w.level, w.reason
+            ));
+        }
+        for d in &cut.dropped_regions {
+            warnings.push(format!("dropped a fluid region of volume {:.6e} ({} cells) not holding the fluid point; a point inside it: {:?}", d.volume, d.cells, d.point));
+        }
+        if !cut.dropped_pieces.is_empty() {
+            let v: f64 = cut.dropped_pieces.iter().map(|d| d.volume).sum();
+            warnings.push(format!(
+                "dropped {} tiny fluid piece(s) without a fluid neighbour, total volume {v:.3e}",
+                cut.dropped_pieces.len()
+            ));
+        }
+        let h = &self.health;
+        if !h.is_watertight() {
+            warnings.push(format!(
+                "surface: {} open edges ({} loops), {} non-manifold edges, {} intersecting triangle pairs; the winding number bridges them",
+                h.open_edges, h.open_loops, h.non_manifold_edges, h.intersecting_pairs
+            ));
+        }
+        MeshReport {
+            octocut_version: env!("CARGO_PKG_VERSION").to_string(),
+            surfaces: self.files.clone(),
+            plan,
+            leaves,
+            cells,
+            faces: mesh.n_faces() as u64,
+            interior_faces: mesh.n_interior_faces() as u64,
+            points: mesh.points.len() as u64,
+            fluid_volume: validation.cells_volume,
+            patches,
+            valid: validation.is_valid(),
+            validation: serde_json::to_value(validation).unwrap_or_default(),
+            quality: serde_json::to_value(q).unwrap_or_default(),
+            cut: serde_json::to_value(cut).unwrap_or_default(),
+            surface_health: serde_json::to_value(&self.health).unwrap_or_default(),
+            warnings,
+            stages: clock.figures,
+            mesh_bytes: crate::report::mesh_bytes(mesh),
+        }
+    }
+}
+
+fn octree_error(e: OctreeError) -> MeshError {
+    match e {
+        OctreeError::TooManyLeaves { .. } => MeshError::Limit(e.to_string()),
+        other => MeshError::Config(other.to_string()),
+    }
 }

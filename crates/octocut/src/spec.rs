@@ -470,12 +470,14 @@ impl CaseSpec {
                         "fluid.point is only used with fluid.side = \"point\"",
                     ))
                 }
-                (other, _) => return Err(cx.err(
-                    Some(f.side.span()),
-                    format!(
+                (other, _) => {
+                    return Err(cx.err(
+                        Some(f.side.span()),
+                        format!(
                         "fluid.side must be \"outside\", \"inside\" or \"point\", got \"{other}\""
                     ),
-                )),
+                    ))
+                }
             },
         };
 
@@ -552,12 +554,14 @@ impl CaseSpec {
                         radius: radius(&cx)?,
                     }
                 }
-                other => return Err(cx.err(
-                    Some(r.shape.span()),
-                    format!(
+                other => {
+                    return Err(cx.err(
+                        Some(r.shape.span()),
+                        format!(
                         "region shape must be \"box\", \"sphere\" or \"cylinder\", got \"{other}\""
                     ),
-                )),
+                    ))
+                }
             };
             regions.push(RegionSpec {
                 name: r.name.clone(),

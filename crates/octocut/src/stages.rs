@@ -38,7 +38,11 @@ impl Stage {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub enum Progress {
     Started(Stage),
-    Finished { stage: Stage, items: u64, seconds: f64 },
+    Finished {
+        stage: Stage,
+        items: u64,
+        seconds: f64,
+    },
 }
 
 /// Time and peak memory of one finished stage.
@@ -108,7 +112,11 @@ impl StageClock {
             unit: unit.to_string(),
             peak_memory_bytes: peak_memory_bytes(),
         });
-        hooks.emit(Progress::Finished { stage, items, seconds });
+        hooks.emit(Progress::Finished {
+            stage,
+            items,
+            seconds,
+        });
         Ok(value)
     }
 }
@@ -119,7 +127,9 @@ pub fn peak_memory_bytes() -> u64 {
         .ok()
         .and_then(|s| {
             s.lines().find(|l| l.starts_with("VmHWM:")).and_then(|l| {
-                l.split_whitespace().nth(1).and_then(|kb| kb.parse::<u64>().ok())
+                l.split_whitespace()
+                    .nth(1)
+                    .and_then(|kb| kb.parse::<u64>().ok())
             })
         })
         .map_or(0, |kb| kb * 1024)
