@@ -82,7 +82,17 @@ pub(crate) fn rect_outline(p: &mut Pixmap, x: f32, y: f32, w: f32, h: f32, width
     }
 }
 
-/// 5x7 glyph rows, `#` set; lower-case descenders are lifted into the 7 rows.
+/// Rows a glyph is drawn below the top of the line: 2 for the descending letters g, p, q, y
+/// (whose 7 rows are 5 of x-height and 2 below the baseline), else 0.
+fn glyph_drop(ch: char) -> usize {
+    if matches!(ch, 'g' | 'p' | 'q' | 'y') {
+        2
+    } else {
+        0
+    }
+}
+
+/// 5x7 glyph rows, `#` set (see [`glyph_drop`] for the descending letters).
 fn glyph(ch: char) -> [&'static str; 7] {
     match ch {
         '0' => [
@@ -212,7 +222,7 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "  ## ", " #  #", " #   ", "###  ", " #   ", " #   ", " #   ",
         ],
         'g' => [
-            "     ", " ####", "#   #", "#   #", " ####", "    #", " ### ",
+            " ####", "#   #", "#   #", "#   #", " ####", "    #", " ### ",
         ],
         'h' => [
             "#    ", "#    ", "# ## ", "##  #", "#   #", "#   #", "#   #",
@@ -239,10 +249,10 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "     ", "     ", " ### ", "#   #", "#   #", "#   #", " ### ",
         ],
         'p' => [
-            "     ", "     ", "#### ", "#   #", "#### ", "#    ", "#    ",
+            "#### ", "#   #", "#   #", "#   #", "#### ", "#    ", "#    ",
         ],
         'q' => [
-            "     ", "     ", " ## #", "#  ##", " ####", "    #", "    #",
+            " ####", "#   #", "#   #", "#   #", " ####", "    #", "    #",
         ],
         'r' => [
             "     ", "     ", "# ## ", "##  #", "#    ", "#    ", "#    ",
@@ -266,7 +276,7 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "     ", "     ", "#   #", " # # ", "  #  ", " # # ", "#   #",
         ],
         'y' => [
-            "     ", "     ", "#   #", "#   #", " ####", "    #", " ### ",
+            "#   #", "#   #", "#   #", "#   #", " ####", "    #", " ### ",
         ],
         'z' => [
             "     ", "     ", "#####", "   # ", "  #  ", " #   ", "#####",
@@ -347,11 +357,12 @@ pub(crate) fn text(p: &mut Pixmap, x: f32, y: f32, text: &str, scale: u32, c: Rg
     let s = scale as f32;
     let (x0, y0) = (x.round(), y.round());
     for (k, ch) in text.chars().enumerate() {
+        let drop = glyph_drop(ch);
         for (row, bits) in glyph(ch).iter().enumerate() {
             for (col, b) in bits.bytes().enumerate() {
                 if b == b'#' {
                     let gx = x0 + (6 * k + col) as f32 * s;
-                    fill_rect(p, gx, y0 + row as f32 * s, s, s, c);
+                    fill_rect(p, gx, y0 + (row + drop) as f32 * s, s, s, c);
                 }
             }
         }

@@ -807,6 +807,23 @@ pub fn render_slice_pixmap(
     Ok(pm)
 }
 
+/// Per-cell values of a [`VolumeMesh`] for [`ColourBy::Level`] (octree level) and
+/// [`ColourBy::Region`] (region tag, `NO_REGION` for none); `None` for [`ColourBy::Quality`],
+/// whose values come from the quality measures.
+///
+/// ```
+/// use octocut_writers::slice::{mesh_values, ColourBy};
+/// let m = octocut_volmesh::VolumeMesh { cell_level: vec![3, 4], ..Default::default() };
+/// assert_eq!(mesh_values(&m, ColourBy::Level), Some(vec![3.0, 4.0]));
+/// ```
+pub fn mesh_values(mesh: &VolumeMesh, colour: ColourBy) -> Option<Vec<f64>> {
+    match colour {
+        ColourBy::Level => Some(mesh.cell_level.iter().map(|&l| l as f64).collect()),
+        ColourBy::Region => Some(mesh.cell_region.iter().map(|&r| r as f64).collect()),
+        ColourBy::Quality => None,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
