@@ -390,7 +390,7 @@ pub(crate) fn label(p: &mut Pixmap, x: f32, y: f32, s: &str, scale: u32, align: 
 
 /// A "nice" step (1, 2 or 5 times a power of ten) giving about `target` intervals over `span`.
 pub(crate) fn nice_step(span: f64, target: f64) -> f64 {
-    if !(span > 0.0) || !span.is_finite() {
+    if span.is_nan() || span <= 0.0 || !span.is_finite() {
         return 1.0;
     }
     let raw = span / target.max(1.0);
@@ -506,7 +506,7 @@ mod tests {
         assert_eq!(ticks(-0.1, 1.05, 0.5), vec![0.0, 0.5, 1.0]);
         assert_eq!(format_tick(0.25, 0.05), "0.25");
         assert_eq!(format_tick(1500.0, 500.0), "1500");
-        assert_eq!(format_value(3.14159), "3.142");
+        assert_eq!(format_value(1.23456), "1.235");
         assert_eq!(format_value(45.0), "45");
     }
 
