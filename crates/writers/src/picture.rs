@@ -4,7 +4,8 @@
 //! Methods: nice tick steps 1, 2, 5 x 10^k (Heckbert 1990, "Nice numbers for graph labels",
 //! Graphics Gems); the continuous ramp interpolates viridis (van der Walt and Smith 2015; the
 //! control colours are its published hex values, quoted from memory); the categorical palette is
-//! Okabe and Ito (2008), colour-blind safe. Invariant: every glyph is 5 x 7 cells.
+//! Okabe and Ito (2008), colour-blind safe, extended by three colours of
+//! Paul Tol's (2021) muted scheme. Invariant: every glyph is 5 x 7 cells.
 
 use tiny_skia::{Paint, PathBuilder, Pixmap, Rect, Stroke, Transform};
 
@@ -477,8 +478,8 @@ pub(crate) fn ramp(t: f64) -> Rgb {
     [0, 1, 2].map(|k| (a[k] as f64 + f * (b[k] as f64 - a[k] as f64)).round() as u8)
 }
 
-/// Okabe-Ito colours without black, for categories (cycled).
-const CATEGORIES: [Rgb; 7] = [
+/// Okabe-Ito colours without black, then three of Tol's, for categories (cycled).
+const CATEGORIES: [Rgb; 10] = [
     [0x56, 0xb4, 0xe9], // sky blue
     [0xe6, 0x9f, 0x00], // orange
     [0x00, 0x9e, 0x73], // bluish green
@@ -486,6 +487,9 @@ const CATEGORIES: [Rgb; 7] = [
     [0x00, 0x72, 0xb2], // blue
     [0xd5, 0x5e, 0x00], // vermillion
     [0xcc, 0x79, 0xa7], // reddish purple
+    [0x33, 0x22, 0x88], // indigo (Tol 2021, muted scheme)
+    [0x44, 0xaa, 0x99], // teal (Tol)
+    [0x88, 0x22, 0x55], // wine (Tol)
 ];
 
 /// Colour of category `k`.

@@ -1384,11 +1384,30 @@ mod tests {
             ..Default::default()
         };
         let b = render_slice(&polys, &q, ColourBy::Quality, plane, &style).unwrap();
+        let regions: Vec<f64> = boxes
+            .iter()
+            .map(|(l, _)| {
+                if l.x >= 5.0 {
+                    0.0
+                } else if l.y < 2.0 {
+                    1.0
+                } else {
+                    NO_REGION as f64
+                }
+            })
+            .collect();
+        let style = SliceStyle {
+            title: "sample: regions".into(),
+            category_names: vec!["wake".into(), "near ground".into()],
+            ..Default::default()
+        };
+        let c = render_slice(&polys, &regions, ColourBy::Region, plane, &style).unwrap();
         let pm = Pixmap::decode_png(&a).unwrap();
         assert!(count_colour(&pm, INK) > 2_000); // walls, axes and labels
         if let Ok(dir) = std::env::var("OCTOCUT_PICTURES") {
             std::fs::write(std::path::Path::new(&dir).join("slice_levels.png"), &a).unwrap();
             std::fs::write(std::path::Path::new(&dir).join("slice_quality.png"), &b).unwrap();
+            std::fs::write(std::path::Path::new(&dir).join("slice_regions.png"), &c).unwrap();
         }
     }
 }
