@@ -216,16 +216,17 @@ impl CellFaces for PolyhedronCells {
         self.cell_offsets.len().saturating_sub(1)
     }
     fn for_each_face(&self, cell: usize, f: &mut dyn FnMut(&[u32], FaceSide)) {
-        let (a, b) = (
-            self.cell_offsets[cell] as usize,
-            self.cell_offsets[cell + 1] as usize,
-        );
-        for face in a..b.min(self.face_wall.len()) {
-            let (s, e) = (
-                self.face_offsets[face] as usize,
-                self.face_offsets[face + 1] as usize,
-            );
-            if let Some(v) = self.face_vertices.get(s..e) {
+        let (Some(&a), Some(&b)) = (self.cell_offsets.get(cell), self.cell_offsets.get(cell + 1))
+        else {
+            return;
+        };
+        for face in a as usize..(b as usize).min(self.face_wall.len()) {
+            let (Some(&s), Some(&e)) =
+                (self.face_offsets.get(face), self.face_offsets.get(face + 1))
+            else {
+                return;
+            };
+            if let Some(v) = self.face_vertices.get(s as usize..e as usize) {
                 f(
                     v,
                     FaceSide {
