@@ -44,3 +44,19 @@ fn main() -> ExitCode {
         ExitCode::SUCCESS
     }
 }
+
+#[cfg(test)]
+mod tests {
+    /// The committed `demo-geometry/` files are what the generator writes now.
+    #[test]
+    fn committed_demo_files_are_up_to_date() {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../demo-geometry");
+        for (name, bytes) in octocut_demogen::scenarios::demo_files() {
+            let on_disk = std::fs::read(dir.join(&name)).unwrap_or_default();
+            assert!(
+                on_disk == bytes,
+                "demo-geometry/{name} is stale: run `cargo run -p octocut-demogen`"
+            );
+        }
+    }
+}

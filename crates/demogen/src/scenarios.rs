@@ -71,16 +71,10 @@ impl Scenario {
 }
 
 /// Options of the drone geometry.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, Default)]
 pub struct DroneOptions {
     /// Add a `rotors` solid: four thin rotor discs above the hubs.
     pub rotor_discs: bool,
-}
-
-impl Default for DroneOptions {
-    fn default() -> Self {
-        DroneOptions { rotor_discs: false }
-    }
 }
 
 /// How many defects the drone export carries, and where.

@@ -4,7 +4,8 @@
 //! Methods: nice tick steps 1, 2, 5 x 10^k (Heckbert 1990, "Nice numbers for graph labels",
 //! Graphics Gems); the continuous ramp interpolates viridis (van der Walt and Smith 2015; the
 //! control colours are its published hex values, quoted from memory); the categorical palette is
-//! Okabe and Ito (2008), colour-blind safe. Invariant: every glyph is 5 x 7 cells.
+//! Okabe and Ito (2008), colour-blind safe, extended by three colours of
+//! Paul Tol's (2021) muted scheme. Invariant: every glyph is 5 x 7 cells.
 
 use tiny_skia::{Paint, PathBuilder, Pixmap, Rect, Stroke, Transform};
 
@@ -82,7 +83,17 @@ pub(crate) fn rect_outline(p: &mut Pixmap, x: f32, y: f32, w: f32, h: f32, width
     }
 }
 
-/// 5x7 glyph rows, `#` set; lower-case descenders are lifted into the 7 rows.
+/// Rows a glyph is drawn below the top of the line: 2 for the descending letters g, p, q, y
+/// (whose 7 rows are 5 of x-height and 2 below the baseline), else 0.
+fn glyph_drop(ch: char) -> usize {
+    if matches!(ch, 'g' | 'p' | 'q' | 'y') {
+        2
+    } else {
+        0
+    }
+}
+
+/// 5x7 glyph rows, `#` set (see [`glyph_drop`] for the descending letters).
 fn glyph(ch: char) -> [&'static str; 7] {
     match ch {
         '0' => [
@@ -212,7 +223,7 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "  ## ", " #  #", " #   ", "###  ", " #   ", " #   ", " #   ",
         ],
         'g' => [
-            "     ", " ####", "#   #", "#   #", " ####", "    #", " ### ",
+            " ####", "#   #", "#   #", "#   #", " ####", "    #", " ### ",
         ],
         'h' => [
             "#    ", "#    ", "# ## ", "##  #", "#   #", "#   #", "#   #",
@@ -239,10 +250,10 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "     ", "     ", " ### ", "#   #", "#   #", "#   #", " ### ",
         ],
         'p' => [
-            "     ", "     ", "#### ", "#   #", "#### ", "#    ", "#    ",
+            "#### ", "#   #", "#   #", "#   #", "#### ", "#    ", "#    ",
         ],
         'q' => [
-            "     ", "     ", " ## #", "#  ##", " ####", "    #", "    #",
+            " ####", "#   #", "#   #", "#   #", " ####", "    #", "    #",
         ],
         'r' => [
             "     ", "     ", "# ## ", "##  #", "#    ", "#    ", "#    ",
@@ -266,7 +277,7 @@ fn glyph(ch: char) -> [&'static str; 7] {
             "     ", "     ", "#   #", " # # ", "  #  ", " # # ", "#   #",
         ],
         'y' => [
-            "     ", "     ", "#   #", "#   #", " ####", "    #", " ### ",
+            "#   #", "#   #", "#   #", "#   #", " ####", "    #", " ### ",
         ],
         'z' => [
             "     ", "     ", "#####", "   # ", "  #  ", " #   ", "#####",
@@ -347,11 +358,12 @@ pub(crate) fn text(p: &mut Pixmap, x: f32, y: f32, text: &str, scale: u32, c: Rg
     let s = scale as f32;
     let (x0, y0) = (x.round(), y.round());
     for (k, ch) in text.chars().enumerate() {
+        let drop = glyph_drop(ch);
         for (row, bits) in glyph(ch).iter().enumerate() {
             for (col, b) in bits.bytes().enumerate() {
                 if b == b'#' {
                     let gx = x0 + (6 * k + col) as f32 * s;
-                    fill_rect(p, gx, y0 + row as f32 * s, s, s, c);
+                    fill_rect(p, gx, y0 + (row + drop) as f32 * s, s, s, c);
                 }
             }
         }
@@ -379,7 +391,7 @@ pub(crate) fn label(p: &mut Pixmap, x: f32, y: f32, s: &str, scale: u32, align: 
 
 /// A "nice" step (1, 2 or 5 times a power of ten) giving about `target` intervals over `span`.
 pub(crate) fn nice_step(span: f64, target: f64) -> f64 {
-    if !(span > 0.0) || !span.is_finite() {
+    if span.is_nan() || span <= 0.0 || !span.is_finite() {
         return 1.0;
     }
     let raw = span / target.max(1.0);
@@ -466,8 +478,8 @@ pub(crate) fn ramp(t: f64) -> Rgb {
     [0, 1, 2].map(|k| (a[k] as f64 + f * (b[k] as f64 - a[k] as f64)).round() as u8)
 }
 
-/// Okabe-Ito colours without black, for categories (cycled).
-const CATEGORIES: [Rgb; 7] = [
+/// Okabe-Ito colours without black, then three of Tol's, for categories (cycled).
+const CATEGORIES: [Rgb; 10] = [
     [0x56, 0xb4, 0xe9], // sky blue
     [0xe6, 0x9f, 0x00], // orange
     [0x00, 0x9e, 0x73], // bluish green
@@ -475,6 +487,9 @@ const CATEGORIES: [Rgb; 7] = [
     [0x00, 0x72, 0xb2], // blue
     [0xd5, 0x5e, 0x00], // vermillion
     [0xcc, 0x79, 0xa7], // reddish purple
+    [0x33, 0x22, 0x88], // indigo (Tol 2021, muted scheme)
+    [0x44, 0xaa, 0x99], // teal (Tol)
+    [0x88, 0x22, 0x55], // wine (Tol)
 ];
 
 /// Colour of category `k`.
@@ -495,7 +510,7 @@ mod tests {
         assert_eq!(ticks(-0.1, 1.05, 0.5), vec![0.0, 0.5, 1.0]);
         assert_eq!(format_tick(0.25, 0.05), "0.25");
         assert_eq!(format_tick(1500.0, 500.0), "1500");
-        assert_eq!(format_value(3.14159), "3.142");
+        assert_eq!(format_value(1.23456), "1.235");
         assert_eq!(format_value(45.0), "45");
     }
 

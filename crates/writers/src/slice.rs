@@ -216,16 +216,17 @@ impl CellFaces for PolyhedronCells {
         self.cell_offsets.len().saturating_sub(1)
     }
     fn for_each_face(&self, cell: usize, f: &mut dyn FnMut(&[u32], FaceSide)) {
-        let (a, b) = (
-            self.cell_offsets[cell] as usize,
-            self.cell_offsets[cell + 1] as usize,
-        );
-        for face in a..b.min(self.face_wall.len()) {
-            let (s, e) = (
-                self.face_offsets[face] as usize,
-                self.face_offsets[face + 1] as usize,
-            );
-            if let Some(v) = self.face_vertices.get(s..e) {
+        let (Some(&a), Some(&b)) = (self.cell_offsets.get(cell), self.cell_offsets.get(cell + 1))
+        else {
+            return;
+        };
+        for face in a as usize..(b as usize).min(self.face_wall.len()) {
+            let (Some(&s), Some(&e)) =
+                (self.face_offsets.get(face), self.face_offsets.get(face + 1))
+            else {
+                return;
+            };
+            if let Some(v) = self.face_vertices.get(s as usize..e as usize) {
                 f(
                     v,
                     FaceSide {
@@ -807,6 +808,23 @@ pub fn render_slice_pixmap(
     Ok(pm)
 }
 
+/// Per-cell values of a [`VolumeMesh`] for [`ColourBy::Level`] (octree level) and
+/// [`ColourBy::Region`] (region tag, `NO_REGION` for none); `None` for [`ColourBy::Quality`],
+/// whose values come from the quality measures.
+///
+/// ```
+/// use octocut_writers::slice::{mesh_values, ColourBy};
+/// let m = octocut_volmesh::VolumeMesh { cell_level: vec![3, 4], ..Default::default() };
+/// assert_eq!(mesh_values(&m, ColourBy::Level), Some(vec![3.0, 4.0]));
+/// ```
+pub fn mesh_values(mesh: &VolumeMesh, colour: ColourBy) -> Option<Vec<f64>> {
+    match colour {
+        ColourBy::Level => Some(mesh.cell_level.iter().map(|&l| l as f64).collect()),
+        ColourBy::Region => Some(mesh.cell_region.iter().map(|&r| r as f64).collect()),
+        ColourBy::Quality => None,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1179,6 +1197,88 @@ mod tests {
         }
     }
 
+    /// One ring-shaped cell: the square [0,3]^2 minus the hole [1,2]^2, z in [0,1]; its top and
+    /// bottom are four trapezoids each. Faces are oriented by their known outward normals.
+    fn ring_cell() -> PolyhedronCells {
+        let mut pts = Points::default();
+        let p = |x: f64, y: f64, z: f64| Vec3::new(x, y, z);
+        let mut faces: Vec<(Vec<Vec3>, Vec3)> = Vec::new();
+        let side = |a: [f64; 2], b: [f64; 2], n: Vec3| {
+            (
+                vec![
+                    p(a[0], a[1], 0.0),
+                    p(b[0], b[1], 0.0),
+                    p(b[0], b[1], 1.0),
+                    p(a[0], a[1], 1.0),
+                ],
+                n,
+            )
+        };
+        faces.push(side([0.0, 0.0], [0.0, 3.0], -Vec3::X));
+        faces.push(side([3.0, 0.0], [3.0, 3.0], Vec3::X));
+        faces.push(side([0.0, 0.0], [3.0, 0.0], -Vec3::Y));
+        faces.push(side([0.0, 3.0], [3.0, 3.0], Vec3::Y));
+        faces.push(side([1.0, 1.0], [1.0, 2.0], Vec3::X)); // hole walls face into the hole
+        faces.push(side([2.0, 1.0], [2.0, 2.0], -Vec3::X));
+        faces.push(side([1.0, 1.0], [2.0, 1.0], Vec3::Y));
+        faces.push(side([1.0, 2.0], [2.0, 2.0], -Vec3::Y));
+        let outer = [[0.0, 0.0], [3.0, 0.0], [3.0, 3.0], [0.0, 3.0]];
+        let inner = [[1.0, 1.0], [2.0, 1.0], [2.0, 2.0], [1.0, 2.0]];
+        for (z, n) in [(0.0, -Vec3::Z), (1.0, Vec3::Z)] {
+            for k in 0..4 {
+                let (a, b, c, d) = (outer[k], outer[(k + 1) % 4], inner[(k + 1) % 4], inner[k]);
+                faces.push((
+                    vec![
+                        p(a[0], a[1], z),
+                        p(b[0], b[1], z),
+                        p(c[0], c[1], z),
+                        p(d[0], d[1], z),
+                    ],
+                    n,
+                ));
+            }
+        }
+        let mut ids = Vec::new();
+        for (mut f, n) in faces {
+            let c = f[0];
+            let area: Vec3 = (1..f.len() - 1)
+                .map(|i| (f[i] - c).cross(f[i + 1] - c))
+                .sum();
+            if area.dot(n) < 0.0 {
+                f.reverse();
+            }
+            ids.push(f.into_iter().map(|q| pts.id(q)).collect::<Vec<u32>>());
+        }
+        let mut cells = PolyhedronCells::new(std::mem::take(&mut pts.pts));
+        cells.push_cell(ids.iter().map(|f| (f.as_slice(), false)));
+        cells
+    }
+
+    #[test]
+    fn a_hole_runs_clockwise() {
+        let polys = slice_cells(
+            &ring_cell(),
+            AxisPlane {
+                axis: 2,
+                value: 0.5,
+            },
+        );
+        let mut areas: Vec<f64> = polys.iter().map(|p| p.signed_area()).collect();
+        areas.sort_by(f64::total_cmp);
+        // exact: outer square 3 x 3 counter-clockwise, hole 1 x 1 clockwise, section 9 - 1
+        assert_eq!(areas, vec![-1.0, 9.0]);
+        let across = slice_cells(
+            &ring_cell(),
+            AxisPlane {
+                axis: 0,
+                value: 1.5,
+            },
+        );
+        // exact: across the hole the section is two rectangles 1 x 1 (y in [0,1] and [2,3])
+        assert_eq!(across.len(), 2);
+        assert!(across.iter().all(|p| p.signed_area() == 1.0));
+    }
+
     #[test]
     fn bad_references_are_skipped_not_panicking() {
         let mut cells = PolyhedronCells::new(vec![Vec3::ZERO; 3]);
@@ -1367,11 +1467,30 @@ mod tests {
             ..Default::default()
         };
         let b = render_slice(&polys, &q, ColourBy::Quality, plane, &style).unwrap();
+        let regions: Vec<f64> = boxes
+            .iter()
+            .map(|(l, _)| {
+                if l.x >= 5.0 {
+                    0.0
+                } else if l.y < 2.0 {
+                    1.0
+                } else {
+                    NO_REGION as f64
+                }
+            })
+            .collect();
+        let style = SliceStyle {
+            title: "sample: regions".into(),
+            category_names: vec!["wake".into(), "near ground".into()],
+            ..Default::default()
+        };
+        let c = render_slice(&polys, &regions, ColourBy::Region, plane, &style).unwrap();
         let pm = Pixmap::decode_png(&a).unwrap();
         assert!(count_colour(&pm, INK) > 2_000); // walls, axes and labels
         if let Ok(dir) = std::env::var("OCTOCUT_PICTURES") {
             std::fs::write(std::path::Path::new(&dir).join("slice_levels.png"), &a).unwrap();
             std::fs::write(std::path::Path::new(&dir).join("slice_quality.png"), &b).unwrap();
+            std::fs::write(std::path::Path::new(&dir).join("slice_regions.png"), &c).unwrap();
         }
     }
 }
