@@ -323,6 +323,30 @@ pub fn clipped_cube() -> VolumeMesh {
     b.build()
 }
 
+/// One non-convex cell: the L-shaped prism `([0,2]x[0,1] U [0,1]x[1,2]) x [0,1]` (level 0, cut
+/// 1), two hexagons and six quads on patch `wall`. Volume 3 (exact: three unit cubes).
+pub fn l_cell() -> VolumeMesh {
+    let mut b = MeshBuilder::default();
+    let wall = b.patch("wall", PatchKind::Wall { tag: 0 });
+    let c = b.cell(0, 1);
+    let ring = [[0., 0.], [2., 0.], [2., 1.], [1., 1.], [1., 2.], [0., 2.]]; // counter-clockwise
+    let lo: Vec<u32> = ring
+        .iter()
+        .map(|q| b.point(Vec3::new(q[0], q[1], 0.0)))
+        .collect();
+    let hi: Vec<u32> = ring
+        .iter()
+        .map(|q| b.point(Vec3::new(q[0], q[1], 1.0)))
+        .collect();
+    b.boundary_face(lo.iter().rev().copied().collect(), c, wall);
+    b.boundary_face(hi.clone(), c, wall);
+    for i in 0..6 {
+        let j = (i + 1) % 6;
+        b.boundary_face(vec![lo[i], lo[j], hi[j], hi[i]], c, wall);
+    }
+    b.build()
+}
+
 /// Deliberately broken meshes, each with one defect validation must report.
 pub mod broken {
     use super::*;

@@ -671,6 +671,10 @@ mod tests {
         let r = testmesh::clipped_cube().validate();
         assert!(r.is_valid(), "{:?}", r.problems);
         assert!((r.cells_volume - (1.0 - 1.0 / 48.0)).abs() < 1e-14); // exact: 1 - (1/2)^3/6
+        let l = testmesh::l_cell().validate();
+        assert!(l.is_valid(), "{:?}", l.problems);
+        assert!((l.cells_volume - 3.0).abs() < 1e-14); // exact: three unit cubes
+        assert!((l.patch_areas[0].area - 14.0).abs() < 1e-14); // exact: 2*3 + perimeter 8 * 1
         let tri = r.patch_areas.iter().find(|p| p.name == "wall").unwrap();
         // exact: equilateral triangle of side sqrt(2)/2: sqrt(3)/4 * 1/2
         assert!((tri.area - 3f64.sqrt() / 8.0).abs() < 1e-14);
