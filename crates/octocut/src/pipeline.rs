@@ -68,6 +68,15 @@ pub struct Outcome {
     pub report: MeshReport,
     /// The domain actually meshed.
     pub domain: Domain,
+    /// Bounding box of the surface.
+    pub bodies: octocut_surface::Aabb,
+}
+
+impl Outcome {
+    /// Volume of every cell (divergence theorem over its faces).
+    pub fn cell_volumes(&self) -> Vec<f64> {
+        octocut_volmesh::geometry::MeshGeometry::new(&self.mesh).cell_volume
+    }
 }
 
 impl Mesher {
@@ -370,6 +379,7 @@ impl Mesher {
             quality: q,
             report,
             domain,
+            bodies: self.index.surface().bounding_box(),
         })
     }
 
