@@ -81,11 +81,7 @@ impl SurfaceIndex {
             let q = closest_point_on_triangle(p, &self.surface.corners(t));
             let d = (q - p).length();
             if best.is_none_or(|b| d < b.distance) {
-                best = Some(SurfacePoint {
-                    point: q,
-                    distance: d,
-                    triangle: t as u32,
-                });
+                best = Some(SurfacePoint { point: q, distance: d, triangle: t as u32 });
             }
         }
         best
@@ -101,11 +97,7 @@ impl SurfaceIndex {
                 continue;
             }
             if let Some(s) = segment_triangle(a, b, &self.surface.corners(t)) {
-                out.push(SegmentHit {
-                    t: s,
-                    point: a + s * (b - a),
-                    triangle: t as u32,
-                });
+                out.push(SegmentHit { t: s, point: a + s * (b - a), triangle: t as u32 });
             }
         }
         out.sort_by(|x, y| x.t.total_cmp(&y.t).then(x.triangle.cmp(&y.triangle)));
@@ -118,10 +110,7 @@ impl SurfaceIndex {
 
     /// Generalized winding number at `p` by the direct sum over all triangles.
     pub fn winding_number_exact(&self, p: Vec3) -> f64 {
-        winding_number_direct(
-            p,
-            (0..self.surface.triangles.len()).map(|t| self.surface.corners(t)),
-        )
+        winding_number_direct(p, (0..self.surface.triangles.len()).map(|t| self.surface.corners(t)))
     }
 
     /// True when `p` is inside the surface (winding number at least 1/2).
