@@ -5,7 +5,8 @@
 //! reference point, exact for a closed surface whatever the point), open (boundary) edges
 //! chained into loops, non-manifold edges, edge length extremes, per-tag counts, and the pairs of
 //! intersecting triangles. The pair search is a broad phase on a bounding-volume hierarchy of
-//! the triangles' boxes (parry3d's `Bvh`, binned SAH build after Wald 2007) and the exact narrow
+//! the triangles' boxes (parry3d's `Bvh`, binned SAH build after Wald 2007, traversed against
+//! itself so each overlapping pair of boxes comes once) and the exact narrow
 //! phase of [`crate::tritri`] under its adjacency rule (triangles sharing a vertex or an edge
 //! intersect only beyond it). Deterministic at any thread count: work is split into fixed
 //! chunks whose results are joined in order.
@@ -16,7 +17,7 @@ use crate::surface::Surface;
 use crate::topology::{components, EdgeMap, NONE};
 use crate::tritri::{mesh_intersection_point, mesh_triangles_intersect};
 use parry3d_f64::bounding_volume::Aabb as PAabb;
-use parry3d_f64::partitioning::{Bvh, BvhBuildStrategy};
+use parry3d_f64::partitioning::{Bvh, BvhBuildStrategy, BvhWorkspace};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -324,36 +325,33 @@ fn intersecting_pairs(surface: &Surface) -> (usize, Vec<IntersectingPair>) {
         })
         .collect();
     let bvh = Bvh::from_leaves(BvhBuildStrategy::default(), &boxes);
-    const CHUNK: usize = 4096;
-    let per_chunk: Vec<(usize, Vec<(u32, u32)>)> = (0..n.div_ceil(CHUNK))
-        .into_par_iter()
+    // each overlapping pair of boxes once, in the (deterministic) order of the traversal
+    let mut cand: Vec<(u32, u32)> = Vec::new();
+    let mut ws = BvhWorkspace::default();
+    bvh.traverse_bvtt_single_tree::<false>(&mut ws, &mut |a, b| cand.push((a.min(b), a.max(b))));
+    const CHUNK: usize = 1 << 15;
+    let hits: Vec<Vec<(u32, u32)>> = cand
+        .par_chunks(CHUNK)
         .map(|c| {
-            let mut cand: Vec<u32> = Vec::new();
-            let mut listed = Vec::new();
-            let mut count = 0;
-            for i in c * CHUNK..n.min((c + 1) * CHUNK) {
-                cand.clear();
-                cand.extend(bvh.intersect_aabb(&boxes[i]).filter(|&j| j as usize > i));
-                cand.sort_unstable();
-                let ti = surface.triangles[i];
-                for &j in &cand {
-                    if mesh_triangles_intersect(v, ti, surface.triangles[j as usize]) {
-                        count += 1;
-                        if listed.len() < LISTED_PAIRS {
-                            listed.push((i as u32, j));
-                        }
-                    }
-                }
-            }
-            (count, listed)
+            c.iter()
+                .copied()
+                .filter(|&(i, j)| {
+                    mesh_triangles_intersect(
+                        v,
+                        surface.triangles[i as usize],
+                        surface.triangles[j as usize],
+                    )
+                })
+                .collect()
         })
         .collect();
-    let total = per_chunk.iter().map(|c| c.0).sum();
-    let listed = per_chunk
+    let mut hits: Vec<(u32, u32)> = hits.into_iter().flatten().collect();
+    hits.sort_unstable();
+    let total = hits.len();
+    let listed = hits
         .iter()
-        .flat_map(|c| c.1.iter().copied())
         .take(LISTED_PAIRS)
-        .map(|(a, b)| {
+        .map(|&(a, b)| {
             let at = mesh_intersection_point(
                 v,
                 surface.triangles[a as usize],

@@ -1,14 +1,29 @@
 //! Surface intake: the first stage of the octocut pipeline.
 //!
 //! A [`Surface`] is a tagged triangle set (f64 vertices, `u32` indices, one surface tag per
-//! triangle). A [`SurfaceIndex`] owns a surface and answers the geometric questions every later
-//! stage asks: which triangles overlap a box, the closest surface point, where a segment crosses
-//! the surface, and whether a point is fluid or solid (generalized winding number).
+//! triangle). Intake runs in three steps:
+//! - [`load_stl`] / [`load_stl_files`] / [`parse_stl`] ([`stl`]): binary and ASCII STL, one tag
+//!   per ASCII `solid` block (or per binary file), typed [`SurfaceError`]s naming the file and
+//!   the position;
+//! - [`repair`] ([`repair`](mod@repair)): weld, drop degenerate and duplicate triangles, orient
+//!   components consistently and closed ones outward, with a [`RepairReport`];
+//! - [`health`] ([`health`](mod@health)): the [`HealthReport`]: open edge loops, non-manifold
+//!   edges, enclosed volumes, self-intersections ([`tritri`], exact), edge extremes, tags.
+//!
+//! [`topology`] holds the shared edge map. A [`SurfaceIndex`] owns a surface and answers the
+//! geometric questions every later stage asks: which triangles overlap a box, the closest
+//! surface point, where a segment crosses the surface, and whether a point is fluid or solid
+//! (generalized winding number).
 //!
 //! ```
-//! use octocut_surface::{Surface, SurfaceIndex, Vec3, Aabb};
+//! use octocut_surface::{health, parse_stl, repair, RepairOptions, Surface, SurfaceIndex, Vec3, Aabb};
+//! // read, repair and check a cube written as binary STL
+//! let bytes = octocut_surface::stl::to_binary_stl(&Surface::unit_cube(), "cube");
+//! let mut s = parse_stl(&bytes, "cube.stl").unwrap();
+//! let report = repair(&mut s, &RepairOptions::default());
+//! assert_eq!(s.vertices.len(), 8);
+//! assert!(health(&s, &report).is_watertight());
 //! // a unit cube made of 12 triangles, outward oriented
-//! let s = Surface::unit_cube();
 //! let index = SurfaceIndex::new(s);
 //! assert!(index.winding_number(Vec3::splat(0.5)) > 0.99);
 //! assert!(index.winding_number(Vec3::splat(2.0)).abs() < 1e-9);

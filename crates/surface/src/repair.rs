@@ -3,8 +3,8 @@
 //!
 //! Steps, each deterministic at any thread count:
 //! 1. Weld. Exactly equal positions merge first (parallel sort); the distinct positions are then
-//!    clustered greedily in lexicographic order on a hash grid of cell size `2 tol` (so the
-//!    neighbours within `tol` lie in 8 cells): a position joins the nearest earlier
+//!    clustered greedily in lexicographic order on a hash grid of cell size `32 tol` (a position
+//!    looks into a neighbour cell only when within `tol` of that face): it joins the nearest earlier
 //!    representative within `tol`, else becomes one. Representatives keep their position, so
 //!    welding never drifts and merged vertices move by at most `tol`. Common practice.
 //! 2. Drop degenerate triangles: a repeated vertex, or three exactly collinear corners (all
@@ -134,12 +134,19 @@ struct CellHasher(u64);
 
 impl Hasher for CellHasher {
     fn finish(&self) -> u64 {
-        self.0
+        // final avalanche (Stafford's mix 13, as in splitmix64) so low and high bits both vary
+        let mut x = self.0;
+        x = (x ^ (x >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        x = (x ^ (x >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        x ^ (x >> 31)
     }
     fn write(&mut self, bytes: &[u8]) {
         for &b in bytes {
             self.write_u64(b as u64);
         }
+    }
+    fn write_usize(&mut self, x: usize) {
+        self.write_u64(x as u64);
     }
     fn write_i64(&mut self, x: i64) {
         self.write_u64(x as u64);
@@ -178,7 +185,9 @@ fn weld(surface: &mut Surface, tol: f64, bbox: &Aabb, r: &mut RepairReport) -> V
     let mut rep_of_unique: Vec<u32> = (0..unique.len() as u32).collect();
     let mut reps = unique;
     if tol > 0.0 && !bbox.is_empty() {
-        let h = 2.0 * tol * (1.0 + 1e-9);
+        // cells of 32 tol: only a point within tol of a cell face looks past its own cell
+        let h = 32.0 * tol;
+        let margin = tol * (1.0 + 1e-9) / h;
         let cell = |p: Vec3| ((p - bbox.min) / h).floor();
         let mut grid: HashMap<[i64; 3], u32, BuildHasherDefault<CellHasher>> =
             HashMap::with_capacity_and_hasher(reps.len(), Default::default());
@@ -188,26 +197,44 @@ fn weld(surface: &mut Surface, tol: f64, bbox: &Aabb, r: &mut RepairReport) -> V
             let c = cell(p);
             let f = (p - bbox.min) / h - c;
             let base = [c.x as i64, c.y as i64, c.z as i64];
-            let off = [f.x, f.y, f.z].map(|x| if x < 0.5 { -1 } else { 1 });
-            let mut best = (f64::INFINITY, NONE);
-            for m in 0..8 {
-                let key = [0, 1, 2].map(|a| base[a] + if m >> a & 1 == 1 { off[a] } else { 0 });
-                let mut q = grid.get(&key).copied().unwrap_or(NONE);
+            // per axis: 0, or -1 / +1 when within tol of the low / high face
+            let off = [f.x, f.y, f.z].map(|x| {
+                if x < margin {
+                    -1
+                } else if x > 1.0 - margin {
+                    1
+                } else {
+                    0
+                }
+            });
+            let scan = |mut q: u32, best: &mut (f64, u32)| {
                 while q != NONE {
                     let d = (kept[q as usize] - p).length();
                     if d <= tol && (d < best.0 || (d == best.0 && q < best.1)) {
-                        best = (d, q);
+                        *best = (d, q);
                     }
                     q = next[q as usize];
                 }
+            };
+            let mut best = (f64::INFINITY, NONE);
+            for m in 1..8 {
+                if (0..3).any(|a| m >> a & 1 == 1 && off[a] == 0) {
+                    continue;
+                }
+                let key = [0, 1, 2].map(|a| base[a] + if m >> a & 1 == 1 { off[a] } else { 0 });
+                if let Some(&q) = grid.get(&key) {
+                    scan(q, &mut best);
+                }
             }
+            // the own cell last, through one entry lookup that also serves the insertion
+            let head = grid.entry(base).or_insert(NONE);
+            scan(*head, &mut best);
             if best.1 != NONE {
                 rep_of_unique[u] = best.1;
                 r.vertices_merged_tolerance += 1;
             } else {
                 let id = kept.len() as u32;
                 kept.push(p);
-                let head = grid.entry(base).or_insert(NONE);
                 next.push(*head);
                 *head = id;
                 rep_of_unique[u] = id;
