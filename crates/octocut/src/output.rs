@@ -111,3 +111,79 @@ pub fn write_pictures(out: &Outcome, dir: &Path) -> Result<Vec<PathBuf>, MeshErr
     written.push(p);
     Ok(written)
 }
+
+/// How `octocut slice` colours the cells.
+#[derive(Clone, Debug, PartialEq)]
+pub enum SliceColour {
+    Level,
+    Region,
+    /// A quality cell array of `mesh.vtu` by name (e.g. `non_orthogonality`).
+    Quality(String),
+}
+
+/// Draws the axis-plane slice `plane` of the mesh written in `dir` (`mesh.vtu`, and
+/// `boundary.vtp` to draw the walls heavier) as PNG bytes.
+pub fn slice_written_mesh(dir: &Path, plane: AxisPlane, colour: &SliceColour) -> Result<Vec<u8>, MeshError> {
+    let vtu = dir.join("mesh.vtu");
+    let m = octocut_writers::read_vtu(&vtu).map_err(|e| MeshError::Config(format!("{}: {e}", vtu.display())))?;
+    // wall faces: the boundary polygons of wall patches, matched by their exact coordinates
+    let vtp = dir.join("boundary.vtp");
+    let mut walls = std::collections::HashSet::new();
+    if let Ok(b) = octocut_writers::read_vtp(&vtp) {
+        let kinds: Vec<String> = match b.field_data.get("tag_kinds") {
+            Some(octocut_writers::ReadArray::Strings(s)) => s.clone(),
+            _ => Vec::new(),
+        };
+        let tags = b.cell_data.get("tag").and_then(|a| a.as_f64()).unwrap_or_default();
+        for i in 0..b.n_polys() {
+            let wall = tags.get(i).and_then(|&t| kinds.get(t as usize)).is_some_and(|k| k.starts_with("wall"));
+            if wall {
+                walls.insert(face_key(&b.points, b.poly(i)));
+            }
+        }
+    }
+    let mut cells = octocut_writers::slice::PolyhedronCells::new(m.points.clone());
+    for c in 0..m.n_cells() {
+        let faces: Vec<(&[u32], bool)> = (m.cell_offsets[c] as usize..m.cell_offsets[c + 1] as usize)
+            .map(|f| {
+                let v = m.face(f);
+                (v, !walls.is_empty() && walls.contains(&face_key(&m.points, v)))
+            })
+            .collect();
+        cells.push_cell(faces);
+    }
+    let (values, mode, name, names) = match colour {
+        SliceColour::Level => (m.cell_data.get("level").and_then(|a| a.as_f64()), ColourBy::Level, "level".to_string(), Vec::new()),
+        SliceColour::Region => {
+            let names = match m.field_data.get("region_names") {
+                Some(octocut_writers::ReadArray::Strings(s)) => s.clone(),
+                _ => Vec::new(),
+            };
+            (m.cell_data.get("region").and_then(|a| a.as_f64()), ColourBy::Region, "region".to_string(), names)
+        }
+        SliceColour::Quality(q) => (m.cell_data.get(q.as_str()).and_then(|a| a.as_f64()), ColourBy::Quality, q.clone(), Vec::new()),
+    };
+    let Some(values) = values else {
+        let known: Vec<&String> = m.cell_data.keys().collect();
+        return Err(MeshError::Config(format!("{} has no cell array `{name}` (it has: {known:?})", vtu.display())));
+    };
+    let polys = slice_cells(&cells, plane);
+    if polys.is_empty() {
+        return Err(MeshError::Config(format!("the plane {}={} cuts no cell of {}", ["x", "y", "z"][plane.axis], plane.value, vtu.display())));
+    }
+    let style = SliceStyle {
+        title: format!("{} = {}: cells coloured by {name}", ["x", "y", "z"][plane.axis], plane.value),
+        value_name: name,
+        category_names: names,
+        unit: "m".into(),
+        ..SliceStyle::default()
+    };
+    render_slice(&polys, &values, mode, plane, &style).map_err(|e| MeshError::Config(e.to_string()))
+}
+
+/// A face identified by the exact bits of its vertices' coordinates, in sorted order.
+fn face_key(points: &[octocut_surface::Vec3], v: &[u32]) -> Vec<[u64; 3]> {
+    let mut k: Vec<[u64; 3]> = v.iter().map(|&i| points[i as usize].to_array().map(f64::to_bits)).collect();
+    k.sort_unstable();
+    k
+}
