@@ -12,6 +12,11 @@ use octocut_surface::{Aabb, Vec3};
 
 /// The QEF minimiser for `planes` (point, unit normal) about `mass`, clamped into `cell`.
 pub(crate) fn qef_vertex(planes: &[(Vec3, Vec3)], mass: Vec3, cell: &Aabb) -> Vec3 {
+    qef_unclamped(planes, mass).clamp(cell.min, cell.max)
+}
+
+/// The QEF minimiser (truncated pseudo-inverse about `mass`) before clamping.
+pub(crate) fn qef_unclamped(planes: &[(Vec3, Vec3)], mass: Vec3) -> Vec3 {
     let mut ata = Matrix3::<f64>::zeros();
     let mut atb = Vector3::<f64>::zeros();
     for &(p, n) in planes {
@@ -21,7 +26,7 @@ pub(crate) fn qef_vertex(planes: &[(Vec3, Vec3)], mass: Vec3, cell: &Aabb) -> Ve
     }
     let svd = ata.svd(true, true);
     let (Some(u), Some(vt)) = (svd.u, svd.v_t) else {
-        return mass.clamp(cell.min, cell.max);
+        return mass;
     };
     let smax = svd.singular_values.max();
     let mut x = Vector3::zeros();
@@ -36,7 +41,7 @@ pub(crate) fn qef_vertex(planes: &[(Vec3, Vec3)], mass: Vec3, cell: &Aabb) -> Ve
             }
         }
     }
-    (mass + Vec3::new(x[0], x[1], x[2])).clamp(cell.min, cell.max)
+    mass + Vec3::new(x[0], x[1], x[2])
 }
 
 #[cfg(test)]

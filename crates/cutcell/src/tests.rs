@@ -108,3 +108,76 @@ fn thread_count_does_not_change_output() {
     assert_eq!(a.mesh.face_vertices, b.mesh.face_vertices);
     assert_eq!(a.mesh.owner, b.mesh.owner);
 }
+
+#[test]
+#[ignore]
+fn debug_cube_walls() {
+    let (centre, a, rx, ry) = (Vec3::new(0.5, 0.49, 0.51), 0.45, 0.4, 0.7);
+    let s = rotated_cube(centre, a, rx, ry);
+    let rot = glam::DMat3::from_rotation_y(ry) * glam::DMat3::from_rotation_x(rx);
+    let dist = |p: Vec3| {
+        let q = rot.transpose() * (p - centre);
+        let d = q.abs() - Vec3::splat(0.5 * a);
+        (d.max(Vec3::ZERO).length() + d.max_element().min(0.0)).abs()
+    };
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let tree = refined_tree(d, &index, 4);
+    let out = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+    let m = &out.mesh;
+    let h = 1.0 / 16.0;
+    let mut bad = std::collections::BTreeSet::new();
+    let (mut nbad, mut ns) = (0, 0);
+    for p in &m.patches {
+        if !matches!(p.kind, octocut_volmesh::PatchKind::Wall { .. }) {
+            continue;
+        }
+        for f in p.start..p.start + p.count {
+            let v = m.face(f as usize);
+            let c0 = m.points[v[0] as usize];
+            for j in 0..v.len() {
+                let a0 = m.points[v[j] as usize];
+                let b0 = m.points[v[(j + 1) % v.len()] as usize];
+                for q in [a0, 0.5 * (a0 + b0), (c0 + a0 + b0) / 3.0] {
+                    ns += 1;
+                    if dist(q) > 0.05 * h {
+                        nbad += 1;
+                        bad.insert(m.owner[f as usize]);
+                    }
+                }
+            }
+        }
+    }
+    eprintln!(
+        "{} bad cells of {}, {nbad} of {ns} samples",
+        bad.len(),
+        m.n_cells()
+    );
+    for &c in bad.iter().take(4) {
+        eprintln!("cell {c} level {}", m.cell_level[c as usize]);
+        for f in 0..m.n_faces() {
+            if m.owner[f] == c || (f < m.n_interior_faces() && m.neighbour[f] == c) {
+                let wall = f >= m.n_interior_faces()
+                    && m.patches.iter().any(|p| {
+                        matches!(p.kind, octocut_volmesh::PatchKind::Wall { .. })
+                            && (p.start as usize..(p.start + p.count) as usize).contains(&f)
+                    });
+                let v = m.face(f);
+                let s: Vec<String> = v
+                    .iter()
+                    .map(|&q| {
+                        let p = m.points[q as usize];
+                        format!(
+                            "({:.4},{:.4},{:.4})d={:.3}",
+                            p.x / h,
+                            p.y / h,
+                            p.z / h,
+                            dist(p) / h
+                        )
+                    })
+                    .collect();
+                eprintln!("  {} {}", if wall { "W" } else { "F" }, s.join(" "));
+            }
+        }
+    }
+}
