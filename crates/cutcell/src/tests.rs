@@ -110,74 +110,92 @@ fn thread_count_does_not_change_output() {
 }
 
 #[test]
-#[ignore]
-fn debug_cube_walls() {
-    let (centre, a, rx, ry) = (Vec3::new(0.5, 0.49, 0.51), 0.45, 0.4, 0.7);
-    let s = rotated_cube(centre, a, rx, ry);
-    let rot = glam::DMat3::from_rotation_y(ry) * glam::DMat3::from_rotation_x(rx);
-    let dist = |p: Vec3| {
-        let q = rot.transpose() * (p - centre);
-        let d = q.abs() - Vec3::splat(0.5 * a);
-        (d.max(Vec3::ZERO).length() + d.max_element().min(0.0)).abs()
+fn region_tags_are_copied_and_bad_options_rejected() {
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let tree = Octree::uniform(d, 1);
+    let tags: Vec<u16> = (0..8).map(|i| i % 3).collect();
+    let out =
+        cut_cells_with_regions(&tree, &empty_index(), &CutOptions::default(), Some(&tags)).unwrap();
+    assert_eq!(out.mesh.cell_region, tags);
+    let untagged = cut_cells(&tree, &empty_index(), &CutOptions::default()).unwrap();
+    assert!(untagged
+        .mesh
+        .cell_region
+        .iter()
+        .all(|&r| r == octocut_volmesh::NO_REGION));
+    let err = cut_cells_with_regions(
+        &tree,
+        &empty_index(),
+        &CutOptions::default(),
+        Some(&tags[..3]),
+    );
+    assert_eq!(
+        err.unwrap_err(),
+        CutError::RegionCount {
+            given: 3,
+            leaves: 8
+        }
+    );
+    let bad = CutOptions {
+        small_cell_fraction: 1.5,
+        ..Default::default()
     };
+    assert_eq!(
+        cut_cells(&tree, &empty_index(), &bad).unwrap_err(),
+        CutError::BadFraction(1.5)
+    );
+    let far = CutOptions {
+        fluid: FluidSide::Point(Vec3::splat(5.0)),
+        ..Default::default()
+    };
+    assert!(matches!(
+        cut_cells(&tree, &empty_index(), &far),
+        Err(CutError::PointOutsideDomain(_))
+    ));
+}
+
+#[test]
+fn no_small_cut_cell_survives_merging() {
+    let s = icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2);
     let index = SurfaceIndex::new(s);
     let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
     let tree = refined_tree(d, &index, 4);
-    let out = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
-    let m = &out.mesh;
-    let h = 1.0 / 16.0;
-    let mut bad = std::collections::BTreeSet::new();
-    let (mut nbad, mut ns) = (0, 0);
-    for p in &m.patches {
-        if !matches!(p.kind, octocut_volmesh::PatchKind::Wall { .. }) {
-            continue;
-        }
-        for f in p.start..p.start + p.count {
-            let v = m.face(f as usize);
-            let c0 = m.points[v[0] as usize];
-            for j in 0..v.len() {
-                let a0 = m.points[v[j] as usize];
-                let b0 = m.points[v[(j + 1) % v.len()] as usize];
-                for q in [a0, 0.5 * (a0 + b0), (c0 + a0 + b0) / 3.0] {
-                    ns += 1;
-                    if dist(q) > 0.05 * h {
-                        nbad += 1;
-                        bad.insert(m.owner[f as usize]);
-                    }
-                }
-            }
-        }
-    }
-    eprintln!(
-        "{} bad cells of {}, {nbad} of {ns} samples",
-        bad.len(),
-        m.n_cells()
+    let unmerged = CutOptions {
+        small_cell_fraction: 0.0,
+        ..Default::default()
+    };
+    let a = cut_cells(&tree, &index, &unmerged).unwrap();
+    let b = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+    // merging keeps the fluid volume (Quirk 1994: cells are united, not removed)
+    let dropped: f64 = b.report.dropped_pieces.iter().map(|p| p.volume).sum();
+    assert!((a.report.fluid_volume - b.report.fluid_volume - dropped).abs() < 1e-12);
+    assert!(b.report.merged_cells > 0);
+    assert_eq!(
+        a.mesh.n_cells(),
+        b.mesh.n_cells() + b.report.merged_cells + b.report.dropped_pieces.len()
     );
-    for &c in bad.iter().take(4) {
-        eprintln!("cell {c} level {}", m.cell_level[c as usize]);
-        for f in 0..m.n_faces() {
-            if m.owner[f] == c || (f < m.n_interior_faces() && m.neighbour[f] == c) {
-                let wall = f >= m.n_interior_faces()
-                    && m.patches.iter().any(|p| {
-                        matches!(p.kind, octocut_volmesh::PatchKind::Wall { .. })
-                            && (p.start as usize..(p.start + p.count) as usize).contains(&f)
-                    });
-                let v = m.face(f);
-                let s: Vec<String> = v
-                    .iter()
-                    .map(|&q| {
-                        let p = m.points[q as usize];
-                        format!(
-                            "({:.4},{:.4},{:.4})d={:.3}",
-                            p.x / h,
-                            p.y / h,
-                            p.z / h,
-                            dist(p) / h
-                        )
-                    })
-                    .collect();
-                eprintln!("  {} {}", if wall { "W" } else { "F" }, s.join(" "));
-            }
+    // every cell of the merged mesh holds at least half of its level's cube
+    let m = &b.mesh;
+    let mut vol = vec![0.0; m.n_cells()];
+    for f in 0..m.n_faces() {
+        let v = m.face(f);
+        let r = m.points[v[0] as usize];
+        let mut fv = 0.0;
+        for j in 1..v.len() - 1 {
+            fv += r.dot(m.points[v[j] as usize].cross(m.points[v[j + 1] as usize])) / 6.0;
+        }
+        vol[m.owner[f] as usize] += fv;
+        if f < m.n_interior_faces() {
+            vol[m.neighbour[f] as usize] -= fv;
         }
     }
+    for c in 0..m.n_cells() {
+        let full = d.cell_size(m.cell_level[c]).powi(3);
+        assert!(
+            vol[c] >= 0.5 * full * (1.0 - 1e-9),
+            "cell {c}: {} of {full}",
+            vol[c]
+        );
+    }
+    check_mesh(m).unwrap();
 }
