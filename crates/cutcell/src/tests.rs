@@ -39,17 +39,6 @@ fn sphere_volume_and_closure() {
     assert!((c.volume - out.report.fluid_volume).abs() < 1e-9);
     // divergence theorem on the input polyhedron: fluid = box - body (h = 1/16 here)
     let err = (c.volume - (1.0 - exact)).abs();
-    for lv in 3..7 {
-        let t = refined_tree(d, &index, lv);
-        let o = cut_cells(&t, &index, &CutOptions::default()).unwrap();
-        eprintln!(
-            "level {lv}: err {:e} cells {} area {} vs {}",
-            o.report.fluid_volume - (1.0 - exact),
-            o.report.cells,
-            o.report.wall_area,
-            index.surface().area()
-        );
-    }
     assert!(err < 2e-3, "volume error {err}");
     // inside
     let opts = CutOptions {
