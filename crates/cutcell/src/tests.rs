@@ -188,3 +188,28 @@ fn no_small_cut_cell_survives_merging() {
     }
     check_mesh(m).unwrap();
 }
+
+#[test]
+fn sheet_thinner_than_a_cell_is_reported() {
+    // a 0.8 x 0.8 x 0.02 plate between grid planes of a uniform h = 1/4 tree
+    let mut s = Surface::unit_cube();
+    for v in &mut s.vertices {
+        *v = Vec3::new(0.1 + 0.8 * v.x, 0.1 + 0.8 * v.y, 0.6 + 0.02 * v.z);
+    }
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let out = cut_cells(&Octree::uniform(d, 2), &index, &CutOptions::default()).unwrap();
+    check_mesh(&out.mesh).unwrap();
+    assert!(out.report.warnings_total > 0);
+    assert!(out
+        .report
+        .warnings
+        .iter()
+        .all(|w| w.reason.starts_with("feature below cell size")));
+    // every warned cell holds part of the plate (z in 0.5..0.75 at this level)
+    assert!(out
+        .report
+        .warnings
+        .iter()
+        .all(|w| (0.5..0.75).contains(&w.centre[2])));
+}
