@@ -213,3 +213,46 @@ fn sheet_thinner_than_a_cell_is_reported() {
         .iter()
         .all(|w| (0.5..0.75).contains(&w.centre[2])));
 }
+
+#[test]
+fn wall_faces_carry_the_tag_they_lie_on() {
+    // a 1.01 cube whose top (z max) triangles carry a second tag
+    let mut s = Surface::unit_cube();
+    for v in &mut s.vertices {
+        *v = *v * 1.01 + Vec3::splat(0.995);
+    }
+    s.tags[2] = octocut_surface::TagId(1);
+    s.tags[3] = octocut_surface::TagId(1);
+    s.tag_names = vec!["sides".into(), "top".into()];
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::splat(3.0)), 1.0).unwrap();
+    let out = cut_cells(&Octree::uniform(d, 2), &index, &CutOptions::default()).unwrap();
+    let m = &out.mesh;
+    check_mesh(m).unwrap();
+    let area = |name: &str| {
+        let p = m.patches.iter().find(|p| p.name == name).unwrap();
+        (p.start..p.start + p.count)
+            .map(|f| {
+                let v = m.face(f as usize);
+                let mut n = Vec3::ZERO;
+                for j in 0..v.len() {
+                    n += m.points[v[j] as usize].cross(m.points[v[(j + 1) % v.len()] as usize]);
+                }
+                0.5 * n.length()
+            })
+            .sum::<f64>()
+    };
+    // exact: the top face has area 1.01^2, the five others 5 * 1.01^2
+    let a = 1.01f64 * 1.01;
+    assert!((area("top") - a).abs() < 1e-9 * a, "top {}", area("top"));
+    assert!(
+        (area("sides") - 5.0 * a).abs() < 1e-9 * a,
+        "sides {}",
+        area("sides")
+    );
+    assert!(matches!(
+        m.patches[0].kind,
+        octocut_volmesh::PatchKind::Wall { tag: 0 }
+    ));
+    assert_eq!(m.patches[2].name, "xmin");
+}
