@@ -178,13 +178,9 @@ fn no_small_cut_cell_survives_merging() {
             vol[m.neighbour[f] as usize] -= fv;
         }
     }
-    for c in 0..m.n_cells() {
+    for (c, &v) in vol.iter().enumerate() {
         let full = d.cell_size(m.cell_level[c]).powi(3);
-        assert!(
-            vol[c] >= 0.5 * full * (1.0 - 1e-9),
-            "cell {c}: {} of {full}",
-            vol[c]
-        );
+        assert!(v >= 0.5 * full * (1.0 - 1e-9), "cell {c}: {v} of {full}");
     }
     check_mesh(m).unwrap();
 }
