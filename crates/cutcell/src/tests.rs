@@ -252,3 +252,33 @@ fn wall_faces_carry_the_tag_they_lie_on() {
     ));
     assert_eq!(m.patches[2].name, "xmin");
 }
+
+#[test]
+fn unbalanced_tree_still_gives_a_valid_mesh() {
+    // refinement without 2:1 balance: faces carry several levels of hanging vertices
+    let s = icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2);
+    let exact = s.enclosed_volume();
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let mut out = Vec::new();
+    let mut stack: Vec<octocut_octree::OctKey> = d.base_keys();
+    while let Some(k) = stack.pop() {
+        let b = d.key_box(k);
+        if k.level() < 5 && index.any_triangle_in_box(&b) {
+            stack.extend(k.children().into_iter().rev());
+        } else {
+            out.push(k);
+        }
+    }
+    let tree = Octree::from_sorted_leaves(d, out);
+    tree.check_tiling().unwrap();
+    let res = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+    let c = check_mesh(&res.mesh).unwrap();
+    // divergence theorem over the input polyhedron; h = 1/32 at the surface
+    assert!(
+        (c.volume - (1.0 - exact)).abs() < 1e-3,
+        "{} vs {}",
+        c.volume,
+        1.0 - exact
+    );
+}
