@@ -136,9 +136,15 @@ impl ClipCtx<'_> {
         }
         let h = (hi - lo).max_element();
         let m = 1e-3 * h;
+        // a pierce point just outside the face (the sharp edge passes by) is pulled inside: the
+        // chord then follows the edge's tip as the face clips it; far outside it is not used
+        let mut p = p;
         for i in 0..3 {
-            if i != ax && (p[i] <= lo[i] + m || p[i] >= hi[i] - m) {
-                return None;
+            if i != ax {
+                if p[i] < lo[i] - 0.5 * h || p[i] > hi[i] + 0.5 * h {
+                    return None;
+                }
+                p[i] = p[i].clamp(lo[i] + m, hi[i] - m);
             }
         }
         if (p - cx.point).length() < m || (p - cy.point).length() < m {

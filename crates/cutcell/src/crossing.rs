@@ -10,7 +10,7 @@
 use octocut_surface::{SegmentHit, SurfaceIndex, Vec3};
 
 /// Relative margin keeping crossings strictly inside their edge.
-pub(crate) const T_EPS: f64 = 1e-4;
+pub const T_EPS: f64 = 1e-4;
 
 #[derive(Clone, Copy, Debug)]
 pub(crate) struct Crossing {

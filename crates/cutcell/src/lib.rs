@@ -486,12 +486,7 @@ pub fn cut_cells_with_regions(
                 let a = poly_e[p as usize];
                 debug_assert!(a != u32::MAX);
                 if face.is_boundary() {
-                    raw.push(
-                        clip.poly(p),
-                        a,
-                        BOUNDARY,
-                        (face.n - topology::SIDE_BASE) as u32,
-                    );
+                    raw.push(clip.poly(p), a, BOUNDARY, face.n - topology::SIDE_BASE);
                 } else {
                     let b = poly_n[p as usize];
                     debug_assert!(b != u32::MAX);

@@ -272,7 +272,7 @@ pub fn check_mesh(m: &VolumeMesh) -> Result<MeshCheck, String> {
                 "cell {c} not closed: |sum of area vectors| / area = {closure:e}"
             ));
         }
-        if !(vol[c] > 0.0) {
+        if vol[c].is_nan() || vol[c] <= 0.0 {
             return Err(format!("cell {c} has volume {}", vol[c]));
         }
         out.max_closure = out.max_closure.max(closure);

@@ -39,17 +39,6 @@ fn sphere_volume_and_closure() {
     assert!((c.volume - out.report.fluid_volume).abs() < 1e-9);
     // divergence theorem on the input polyhedron: fluid = box - body (h = 1/16 here)
     let err = (c.volume - (1.0 - exact)).abs();
-    for lv in 3..7 {
-        let t = refined_tree(d, &index, lv);
-        let o = cut_cells(&t, &index, &CutOptions::default()).unwrap();
-        eprintln!(
-            "level {lv}: err {:e} cells {} area {} vs {}",
-            o.report.fluid_volume - (1.0 - exact),
-            o.report.cells,
-            o.report.wall_area,
-            index.surface().area()
-        );
-    }
     assert!(err < 2e-3, "volume error {err}");
     // inside
     let opts = CutOptions {
@@ -107,4 +96,189 @@ fn thread_count_does_not_change_output() {
         .all(|(p, q)| p.to_array().map(f64::to_bits) == q.to_array().map(f64::to_bits)));
     assert_eq!(a.mesh.face_vertices, b.mesh.face_vertices);
     assert_eq!(a.mesh.owner, b.mesh.owner);
+}
+
+#[test]
+fn region_tags_are_copied_and_bad_options_rejected() {
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let tree = Octree::uniform(d, 1);
+    let tags: Vec<u16> = (0..8).map(|i| i % 3).collect();
+    let out =
+        cut_cells_with_regions(&tree, &empty_index(), &CutOptions::default(), Some(&tags)).unwrap();
+    assert_eq!(out.mesh.cell_region, tags);
+    let untagged = cut_cells(&tree, &empty_index(), &CutOptions::default()).unwrap();
+    assert!(untagged
+        .mesh
+        .cell_region
+        .iter()
+        .all(|&r| r == octocut_volmesh::NO_REGION));
+    let err = cut_cells_with_regions(
+        &tree,
+        &empty_index(),
+        &CutOptions::default(),
+        Some(&tags[..3]),
+    );
+    assert_eq!(
+        err.unwrap_err(),
+        CutError::RegionCount {
+            given: 3,
+            leaves: 8
+        }
+    );
+    let bad = CutOptions {
+        small_cell_fraction: 1.5,
+        ..Default::default()
+    };
+    assert_eq!(
+        cut_cells(&tree, &empty_index(), &bad).unwrap_err(),
+        CutError::BadFraction(1.5)
+    );
+    let far = CutOptions {
+        fluid: FluidSide::Point(Vec3::splat(5.0)),
+        ..Default::default()
+    };
+    assert!(matches!(
+        cut_cells(&tree, &empty_index(), &far),
+        Err(CutError::PointOutsideDomain(_))
+    ));
+}
+
+#[test]
+fn no_small_cut_cell_survives_merging() {
+    let s = icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2);
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let tree = refined_tree(d, &index, 4);
+    let unmerged = CutOptions {
+        small_cell_fraction: 0.0,
+        ..Default::default()
+    };
+    let a = cut_cells(&tree, &index, &unmerged).unwrap();
+    let b = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+    // merging keeps the fluid volume (Quirk 1994: cells are united, not removed)
+    let dropped: f64 = b.report.dropped_pieces.iter().map(|p| p.volume).sum();
+    assert!((a.report.fluid_volume - b.report.fluid_volume - dropped).abs() < 1e-12);
+    assert!(b.report.merged_cells > 0);
+    assert_eq!(
+        a.mesh.n_cells(),
+        b.mesh.n_cells() + b.report.merged_cells + b.report.dropped_pieces.len()
+    );
+    // every cell of the merged mesh holds at least half of its level's cube
+    let m = &b.mesh;
+    let mut vol = vec![0.0; m.n_cells()];
+    for f in 0..m.n_faces() {
+        let v = m.face(f);
+        let r = m.points[v[0] as usize];
+        let mut fv = 0.0;
+        for j in 1..v.len() - 1 {
+            fv += r.dot(m.points[v[j] as usize].cross(m.points[v[j + 1] as usize])) / 6.0;
+        }
+        vol[m.owner[f] as usize] += fv;
+        if f < m.n_interior_faces() {
+            vol[m.neighbour[f] as usize] -= fv;
+        }
+    }
+    for (c, &v) in vol.iter().enumerate() {
+        let full = d.cell_size(m.cell_level[c]).powi(3);
+        assert!(v >= 0.5 * full * (1.0 - 1e-9), "cell {c}: {v} of {full}");
+    }
+    check_mesh(m).unwrap();
+}
+
+#[test]
+fn sheet_thinner_than_a_cell_is_reported() {
+    // a 0.8 x 0.8 x 0.02 plate between grid planes of a uniform h = 1/4 tree
+    let mut s = Surface::unit_cube();
+    for v in &mut s.vertices {
+        *v = Vec3::new(0.1 + 0.8 * v.x, 0.1 + 0.8 * v.y, 0.6 + 0.02 * v.z);
+    }
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let out = cut_cells(&Octree::uniform(d, 2), &index, &CutOptions::default()).unwrap();
+    check_mesh(&out.mesh).unwrap();
+    assert!(out.report.warnings_total > 0);
+    assert!(out
+        .report
+        .warnings
+        .iter()
+        .all(|w| w.reason.starts_with("feature below cell size")));
+    // every warned cell holds part of the plate (z in 0.5..0.75 at this level)
+    assert!(out
+        .report
+        .warnings
+        .iter()
+        .all(|w| (0.5..0.75).contains(&w.centre[2])));
+}
+
+#[test]
+fn wall_faces_carry_the_tag_they_lie_on() {
+    // a 1.01 cube whose top (z max) triangles carry a second tag
+    let mut s = Surface::unit_cube();
+    for v in &mut s.vertices {
+        *v = *v * 1.01 + Vec3::splat(0.995);
+    }
+    s.tags[2] = octocut_surface::TagId(1);
+    s.tags[3] = octocut_surface::TagId(1);
+    s.tag_names = vec!["sides".into(), "top".into()];
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::splat(3.0)), 1.0).unwrap();
+    let out = cut_cells(&Octree::uniform(d, 2), &index, &CutOptions::default()).unwrap();
+    let m = &out.mesh;
+    check_mesh(m).unwrap();
+    let area = |name: &str| {
+        let p = m.patches.iter().find(|p| p.name == name).unwrap();
+        (p.start..p.start + p.count)
+            .map(|f| {
+                let v = m.face(f as usize);
+                let mut n = Vec3::ZERO;
+                for j in 0..v.len() {
+                    n += m.points[v[j] as usize].cross(m.points[v[(j + 1) % v.len()] as usize]);
+                }
+                0.5 * n.length()
+            })
+            .sum::<f64>()
+    };
+    // exact: the top face has area 1.01^2, the five others 5 * 1.01^2
+    let a = 1.01f64 * 1.01;
+    assert!((area("top") - a).abs() < 1e-9 * a, "top {}", area("top"));
+    assert!(
+        (area("sides") - 5.0 * a).abs() < 1e-9 * a,
+        "sides {}",
+        area("sides")
+    );
+    assert!(matches!(
+        m.patches[0].kind,
+        octocut_volmesh::PatchKind::Wall { tag: 0 }
+    ));
+    assert_eq!(m.patches[2].name, "xmin");
+}
+
+#[test]
+fn unbalanced_tree_still_gives_a_valid_mesh() {
+    // refinement without 2:1 balance: faces carry several levels of hanging vertices
+    let s = icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2);
+    let exact = s.enclosed_volume();
+    let index = SurfaceIndex::new(s);
+    let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+    let mut out = Vec::new();
+    let mut stack: Vec<octocut_octree::OctKey> = d.base_keys();
+    while let Some(k) = stack.pop() {
+        let b = d.key_box(k);
+        if k.level() < 5 && index.any_triangle_in_box(&b) {
+            stack.extend(k.children().into_iter().rev());
+        } else {
+            out.push(k);
+        }
+    }
+    let tree = Octree::from_sorted_leaves(d, out);
+    tree.check_tiling().unwrap();
+    let res = cut_cells(&tree, &index, &CutOptions::default()).unwrap();
+    let c = check_mesh(&res.mesh).unwrap();
+    // divergence theorem over the input polyhedron; h = 1/32 at the surface
+    assert!(
+        (c.volume - (1.0 - exact)).abs() < 1e-3,
+        "{} vs {}",
+        c.volume,
+        1.0 - exact
+    );
 }
