@@ -4,7 +4,7 @@
 //! Run briefly: `cargo bench --bench winding -- --warm-up-time 1 --measurement-time 3`.
 
 use criterion::{criterion_group, criterion_main, BatchSize, BenchmarkId, Criterion, Throughput};
-use octocut_surface::{Aabb, Surface, SurfaceIndex, TagId, Vec3};
+use octocut_surface::{Aabb, IndexOptions, Surface, SurfaceIndex, TagId, Vec3};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use std::f64::consts::PI;
@@ -63,6 +63,16 @@ fn bench(c: &mut Criterion) {
     g.throughput(Throughput::Elements(pts.len() as u64));
     g.bench_function("hierarchical_batch_100k_points", |b| {
         b.iter(|| index.winding_numbers(&pts))
+    });
+    let fast = SurfaceIndex::with_options(
+        s.clone(),
+        IndexOptions {
+            winding_beta: 2.0,
+            ..IndexOptions::default()
+        },
+    );
+    g.bench_function("hierarchical_batch_100k_points_beta2", |b| {
+        b.iter(|| fast.winding_numbers(&pts))
     });
     let few = points(200, &bb, 2);
     g.throughput(Throughput::Elements(few.len() as u64));

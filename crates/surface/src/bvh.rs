@@ -101,7 +101,7 @@ impl ClusterBvh {
                     let q = p.clamp(node.mins(), node.maxs());
                     (p - q).length_squared()
                 },
-                |k, best| leaf(k, best),
+                leaf,
             )
             .map(|(_, v)| v)
     }

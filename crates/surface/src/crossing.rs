@@ -3,7 +3,8 @@
 //!
 //! The decision uses only the signs of exact orientation predicates (Shewchuk 1997, through
 //! [`crate::predicates::orient3d`]), the classic segment-triangle test by signed volumes
-//! (e.g. Ericson 2005, "Real-Time Collision Detection", 5.3.4): the segment `ab` crosses the
+//! (scalar triple products; e.g. Ericson 2005, "Real-Time Collision Detection", chapter 5,
+//! section number from memory not given): the segment `ab` crosses the
 //! triangle `pqr` when `a` and `b` are not strictly on one side of its plane and the three
 //! volumes `[a b p q]`, `[a b q r]`, `[a b r p]` do not have opposite signs. A zero volume puts
 //! the crossing exactly on that edge, two zeros on their common vertex. Because the signs are

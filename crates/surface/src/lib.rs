@@ -15,6 +15,15 @@
 //! surface point, where a segment crosses the surface, and whether a point is fluid or solid
 //! (generalized winding number).
 //!
+//! Spatial index layout ([`SurfaceIndex`], `Send + Sync`): triangles sorted along a Morton
+//! radix tree ([`tree`]); its leaves (runs of at most 8 triangles) are the leaves of a parry3d
+//! BVH ([`bvh`]) serving box, closest-point and segment queries with exact narrow phases
+//! ([`tribox`], [`crossing`]); its nodes carry the second-order far-field expansions of the fast
+//! winding number ([`winding_tree`], Barill et al. 2018; exact sum in [`winding`]).
+//! [`SurfaceIndex::segment_hits`] returns raw per-triangle hits, and
+//! [`SurfaceIndex::segment_crossings`] one crossing per passage through the surface (shared
+//! edges and vertices merged), the one to count for parity.
+//!
 //! ```
 //! use octocut_surface::{health, parse_stl, repair, RepairOptions, Surface, SurfaceIndex, Vec3, Aabb};
 //! // read, repair and check a cube written as binary STL

@@ -61,35 +61,41 @@ impl RadixTree {
                 (a + b + c) / 3.0
             })
             .collect();
-        let bounds = centroids
-            .par_iter()
-            .fold(Aabb::empty, |mut b, &p| {
-                if p.is_finite() {
-                    b.grow(p);
-                }
-                b
-            })
-            .reduce(Aabb::empty, |a, b| a.union(&b));
-        let ext = bounds.extent().max_element();
-        let scale = if ext > 0.0 && ext.is_finite() {
-            ((1u64 << 21) - 1) as f64 / ext
-        } else {
-            0.0
-        };
-        let mut keyed: Vec<(u64, u32)> = centroids
-            .par_iter()
-            .enumerate()
-            .map(|(t, &p)| (morton_key(p, bounds.min, scale), t as u32))
-            .collect();
+        let keyed = morton_sorted(&centroids);
         drop(centroids);
-        // Keys with their (unique) ids: the unstable sort is deterministic.
-        keyed.par_sort_unstable();
         let keys: Vec<u64> = keyed.iter().map(|k| k.0).collect();
         let order: Vec<u32> = keyed.into_iter().map(|k| k.1).collect();
         let mut nodes = Vec::with_capacity(2 * n / leaf_size as usize + 1);
         split(&keys, 0, n as u32, leaf_size, &mut nodes);
         RadixTree { order, nodes }
     }
+}
+
+/// `(Morton key, index)` of every point, sorted: keys on a 2^21 grid over the points' bounding
+/// cube (non-finite points get key 0). Deterministic: the pairs are unique.
+pub(crate) fn morton_sorted(points: &[Vec3]) -> Vec<(u64, u32)> {
+    let bounds = points
+        .par_iter()
+        .fold(Aabb::empty, |mut b, &p| {
+            if p.is_finite() {
+                b.grow(p);
+            }
+            b
+        })
+        .reduce(Aabb::empty, |a, b| a.union(&b));
+    let ext = bounds.extent().max_element();
+    let scale = if ext > 0.0 && ext.is_finite() {
+        ((1u64 << 21) - 1) as f64 / ext
+    } else {
+        0.0
+    };
+    let mut keyed: Vec<(u64, u32)> = points
+        .par_iter()
+        .enumerate()
+        .map(|(t, &p)| (morton_key(p, bounds.min, scale), t as u32))
+        .collect();
+    keyed.par_sort_unstable();
+    keyed
 }
 
 fn split(keys: &[u64], start: u32, end: u32, leaf_size: u32, nodes: &mut Vec<TreeNode>) {

@@ -1,24 +1,28 @@
 //! Hierarchical (fast) generalized winding number over a radix tree of triangles.
 //!
 //! Follows Barill, Dickson, Schmidt, Levin, Jacobson (2018), "Fast winding numbers for soups and
-//! clouds": every tree node stores a far-field expansion of the solid angle of its triangles
-//! about their area-weighted centroid `c`, to second order: the area vector sum
-//! `N = sum a_t n_t` (first order, a dipole) and the matrix `M = sum a_t n_t (c_t - c)^T`
-//! (second order; `c_t` is the triangle centroid, so the triangle integral is exact). With
-//! `d = c - q`, `L = |d|`, the node's solid angle seen from `q` is
-//! `N.d / L^3 + tr(M) / L^3 - 3 d.M d / L^5`. A node is "far" when `L > beta * r`, `r` bounding
-//! the distance from `c` to every point of its triangles; far nodes use the expansion, near
-//! leaves sum the exact solid angles (Van Oosterom and Strackee 1983,
-//! [`crate::winding::solid_angle`]). The definition of the winding number is the one of
-//! Jacobson, Kavan, Sorkine-Hornung (2013).
+//! clouds": every tree node stores the Taylor expansion, about the area-weighted centroid `c`
+//! of its triangles, of the solid-angle kernel `(x - q) / |x - q|^3` integrated over them, up to
+//! the second derivative: the area vector sum `N = sum a_t n_t` (the dipole term),
+//! `M = sum a_t n_t (c_t - c)^T` (first moments; `c_t` the triangle centroid) and
+//! `T_ijk = sum a_t n_ti S_t,jk` (second moments; `S_t` the mean of `(x - c)(x - c)^T` over
+//! the triangle, `(e0 e0^T + e1 e1^T + e2 e2^T + s s^T) / 12` with `e_k` the corners minus `c`
+//! and `s` their sum). Children's moments are moved to the parent's centre exactly. A node is
+//! far from `q` when `|c - q| > beta r`, `r` bounding the distance from `c` to its triangles
+//! (exact for nodes of at most 2048 triangles, a bound above); far nodes use the expansion,
+//! near leaves sum the exact solid angles (Van Oosterom and Strackee 1983,
+//! [`crate::winding::solid_angle`]). The winding number is the one defined by Jacobson, Kavan,
+//! Sorkine-Hornung (2013): the summed solid angle over 4 pi.
 //!
 //! Invariants: a node whose sphere (radius `r`) holds `q` is never expanded (`beta >= 1`); the
-//! result for a point depends only on the point, the surface and `beta`.
+//! result for a point depends only on the point, the surface and `beta`; the truncation error
+//! falls as `beta` grows (measured in `tests/spatial_queries.rs`).
 
 use crate::geom::{Aabb, Vec3};
 use crate::surface::Surface;
 use crate::tree::RadixTree;
 use crate::winding::solid_angle;
+use rayon::prelude::*;
 
 /// Far-field data of one tree node.
 #[derive(Clone, Copy, Debug)]
@@ -50,11 +54,66 @@ impl Default for Moments {
     }
 }
 
+/// The data read by every visit: expansion centre and squared radius (hot, 32 bytes).
+#[derive(Clone, Copy, Debug, Default)]
+struct Hot {
+    center: Vec3,
+    r2: f64,
+}
+
+/// A node's expansion as stored for queries: the area vector in f64 (it cancels on closed
+/// parts), the higher terms in f32 (their rounding, ~1e-7 relative, is far below the truncation
+/// error), pre-combined for the evaluation.
+#[derive(Clone, Copy, Debug)]
+struct Expansion {
+    n: Vec3,
+    /// `M`, row-major.
+    m: [f32; 9],
+    /// `2 u + v`, `u_k = sum_i T_iik`, `v_i = sum_j T_ijj`.
+    w: [f32; 3],
+    /// `T` with the off-diagonal `(j, k)` entries doubled.
+    t: [f32; 18],
+}
+
+impl Expansion {
+    fn from_moments(mo: &Moments) -> Expansion {
+        let t = &mo.t;
+        let u = [
+            t[0] + t[7] + t[14],
+            t[1] + t[9] + t[16],
+            t[2] + t[10] + t[17],
+        ];
+        let v = [
+            t[0] + t[3] + t[5],
+            t[6] + t[9] + t[11],
+            t[12] + t[15] + t[17],
+        ];
+        let mut tt = [0.0f32; 18];
+        for i in 0..3 {
+            for (k, f) in [1.0, 2.0, 2.0, 1.0, 2.0, 1.0].iter().enumerate() {
+                tt[6 * i + k] = (f * t[6 * i + k]) as f32;
+            }
+        }
+        Expansion {
+            n: mo.n,
+            m: mo.m.map(|x| x as f32),
+            w: [0, 1, 2].map(|k| (2.0 * u[k] + v[k]) as f32),
+            t: tt,
+        }
+    }
+}
+
 /// The per-node expansions of a [`RadixTree`] (same node ids).
 #[derive(Clone, Debug, Default)]
 pub struct WindingTree {
-    moments: Vec<Moments>,
+    hot: Vec<Hot>,
+    expansions: Vec<Expansion>,
 }
+
+/// Subtrees larger than this are filled in parallel.
+const PAR_FILL: u32 = 8192;
+/// Nodes of at most this many triangles get the exact radius (larger ones a bound).
+const EXACT_RADIUS: u32 = 2048;
 
 /// Depth bound of the radix tree: 63 key bits plus halving of equal keys (< 2^32 triangles).
 const STACK: usize = 128;
@@ -66,7 +125,28 @@ impl WindingTree {
         if !tree.nodes.is_empty() {
             fill(surface, tree, 0, &mut moments);
         }
-        WindingTree { moments }
+        let expansions = moments.par_iter().map(Expansion::from_moments).collect();
+        let hot = moments
+            .par_iter()
+            .zip(&tree.nodes)
+            .map(|(mo, node)| {
+                let mut r2 = mo.r2;
+                if node.end - node.start <= EXACT_RADIUS && !node.is_leaf() {
+                    let mut e: f64 = 0.0;
+                    for &t in &tree.order[node.start as usize..node.end as usize] {
+                        for v in surface.corners(t as usize) {
+                            e = e.max((v - mo.center).length_squared());
+                        }
+                    }
+                    r2 = r2.min(sanitize(e));
+                }
+                Hot {
+                    center: mo.center,
+                    r2,
+                }
+            })
+            .collect();
+        WindingTree { hot, expansions }
     }
 
     /// Winding number at `q` with far-field criterion `L > beta r` (beta clamped to >= 1).
@@ -81,11 +161,11 @@ impl WindingTree {
         while top > 0 {
             top -= 1;
             let id = stack[top] as usize;
-            let mo = &self.moments[id];
-            let d = mo.center - q;
+            let h = self.hot[id];
+            let d = h.center - q;
             let l2 = d.length_squared();
-            if l2 > beta2 * mo.r2 {
-                sum += far_field(mo, d, l2);
+            if l2 > beta2 * h.r2 {
+                sum += far_field(&self.expansions[id], d, l2);
                 continue;
             }
             let node = tree.nodes[id];
@@ -105,27 +185,28 @@ impl WindingTree {
 
     /// Heap bytes held.
     pub fn heap_bytes(&self) -> usize {
-        self.moments.capacity() * std::mem::size_of::<Moments>()
+        self.expansions.capacity() * std::mem::size_of::<Expansion>()
+            + self.hot.capacity() * std::mem::size_of::<Hot>()
     }
 }
 
 /// Solid angle of a node's triangles seen from `q`, `d = c - q`, `l2 = |d|^2`: the Taylor
 /// expansion of `(x - q) / |x - q|^3` about `c` to second order, integrated over the triangles.
 #[inline]
-fn far_field(mo: &Moments, d: Vec3, l2: f64) -> f64 {
+fn far_field(ex: &Expansion, d: Vec3, l2: f64) -> f64 {
     let inv2 = 1.0 / l2;
     let inv3 = inv2 / l2.sqrt();
-    let m = &mo.m;
+    let m = ex.m.map(f64::from);
     let md = Vec3::new(
         m[0] * d.x + m[1] * d.y + m[2] * d.z,
         m[3] * d.x + m[4] * d.y + m[5] * d.z,
         m[6] * d.x + m[7] * d.y + m[8] * d.z,
     );
     let tr = m[0] + m[4] + m[8];
-    let order1 = (mo.n.dot(d) + tr) * inv3 - 3.0 * d.dot(md) * inv3 * inv2;
+    let order1 = (ex.n.dot(d) + tr) * inv3 - 3.0 * d.dot(md) * inv3 * inv2;
     // second order: 1/2 H_ijk T_ijk with
-    // H_ijk = -3 (D_ij d_k + D_ik d_j + D_jk d_i) / L^5 + 15 d_i d_j d_k / L^7
-    let t = &mo.t;
+    // H_ijk = -3 (D_ij d_k + D_ik d_j + D_jk d_i) / L^5 + 15 d_i d_j d_k / L^7,
+    // = -3/2 (2 u + v).d / L^5 + 15/2 T[d, d, d] / L^7
     let dd = [
         d.x * d.x,
         d.x * d.y,
@@ -134,26 +215,23 @@ fn far_field(mo: &Moments, d: Vec3, l2: f64) -> f64 {
         d.y * d.z,
         d.z * d.z,
     ];
-    let (mut u, mut v, mut ddd) = (Vec3::ZERO, Vec3::ZERO, 0.0);
+    let mut ddd = 0.0;
     for i in 0..3 {
-        let ti = &t[6 * i..6 * i + 6];
-        v[i] = ti[0] + ti[3] + ti[5];
-        ddd += d[i]
-            * (ti[0] * dd[0]
-                + ti[3] * dd[3]
-                + ti[5] * dd[5]
-                + 2.0 * (ti[1] * dd[1] + ti[2] * dd[2] + ti[4] * dd[4]));
+        let ti = &ex.t[6 * i..6 * i + 6];
+        let mut s = 0.0;
+        for k in 0..6 {
+            s += f64::from(ti[k]) * dd[k];
+        }
+        ddd += d[i] * s;
     }
-    // u_k = sum_i T_iik
-    u.x = t[0] + t[6 + 1] + t[12 + 2];
-    u.y = t[1] + t[6 + 3] + t[12 + 4];
-    u.z = t[2] + t[6 + 4] + t[12 + 5];
+    let w = Vec3::new(ex.w[0].into(), ex.w[1].into(), ex.w[2].into());
     let inv5 = inv3 * inv2;
-    let order2 = -1.5 * (2.0 * u.dot(d) + v.dot(d)) * inv5 + 7.5 * ddd * inv5 * inv2;
+    let order2 = -1.5 * w.dot(d) * inv5 + 7.5 * ddd * inv5 * inv2;
     order1 + order2
 }
 
-/// Fills the moments of node `id` and its subtree, returning the node's bounding box.
+/// Fills the moments of node `id` and its subtree, `out` holding exactly the subtree's nodes
+/// (preorder: the node, its left subtree, its right subtree); returns the node's bounding box.
 fn fill(surface: &Surface, tree: &RadixTree, id: usize, out: &mut [Moments]) -> Aabb {
     let node = tree.nodes[id];
     if node.is_leaf() {
@@ -194,13 +272,21 @@ fn fill(surface: &Surface, tree: &RadixTree, id: usize, out: &mut [Moments]) -> 
             }
         }
         mo.r2 = sanitize(r2);
-        out[id] = mo;
+        out[0] = mo;
         return bb;
     }
     let (l, r) = (id + 1, node.right as usize);
-    let bl = fill(surface, tree, l, out);
-    let br = fill(surface, tree, r, out);
-    let (ml, mr) = (out[l], out[r]);
+    let (me, rest) = out.split_first_mut().expect("a node has its own slot");
+    let (left, right) = rest.split_at_mut(r - l);
+    let (bl, br) = if node.end - node.start > PAR_FILL {
+        rayon::join(
+            || fill(surface, tree, l, left),
+            || fill(surface, tree, r, right),
+        )
+    } else {
+        (fill(surface, tree, l, left), fill(surface, tree, r, right))
+    };
+    let (ml, mr) = (left[0], right[0]);
     let area = ml.area + mr.area;
     let center = if area > 0.0 {
         (ml.area * ml.center + mr.area * mr.center) / area
@@ -240,7 +326,7 @@ fn fill(surface: &Surface, tree: &RadixTree, id: usize, out: &mut [Moments]) -> 
         .fold(0.0f64, f64::max);
     let by_box = far_corner(bb, center);
     mo.r2 = sanitize(by_children.min(by_box).powi(2));
-    out[id] = mo;
+    *me = mo;
     bb
 }
 
@@ -298,12 +384,13 @@ mod tests {
         s.tags.truncate(9);
         let tree = RadixTree::build(&s, 16); // one leaf
         let wt = WindingTree::build(&s, &tree);
-        let mo = wt.moments[0];
+        let ex = wt.expansions[0];
+        let mo = wt.hot[0];
         let dir = Vec3::new(0.3, -0.5, 0.8).normalize();
         let err = |l: f64| {
             let q = mo.center - l * dir;
             let d = mo.center - q;
-            let fast = far_field(&mo, d, d.length_squared()) / (4.0 * std::f64::consts::PI);
+            let fast = far_field(&ex, d, d.length_squared()) / (4.0 * std::f64::consts::PI);
             let exact = winding_number_direct(q, (0..9).map(|t| s.corners(t)));
             (fast - exact).abs()
         };
