@@ -9,6 +9,9 @@ use octocut_surface::{health, load_stl_files, repair, HealthReport, RepairOption
 use std::path::PathBuf;
 use std::process::ExitCode;
 
+mod mesh;
+mod slice;
+
 #[derive(Parser)]
 #[command(
     name = "octocut",
@@ -24,6 +27,12 @@ struct Cli {
 enum Command {
     /// Read STL files, repair them in memory and print the surface health report.
     Check(CheckArgs),
+    /// Mesh a case: a case file, or the quick form with --surface, --domain, --base-size and
+    /// --surface-size. Exit codes: 0 written and valid, 2 bad input or configuration, 3 refused
+    /// by a limit, 1 internal error.
+    Mesh(mesh::MeshArgs),
+    /// Draw an axis-aligned slice of a written mesh as a PNG picture.
+    Slice(slice::SliceArgs),
 }
 
 #[derive(Args)]
@@ -43,6 +52,8 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Check(args) => check(&args),
+        Command::Mesh(args) => return mesh::run(&args),
+        Command::Slice(args) => return slice::run(&args),
     };
     match result {
         Ok(code) => code,

@@ -20,7 +20,12 @@ pub struct MeshArgs {
     #[arg(long = "surface", value_name = "FILE.stl")]
     pub surfaces: Vec<PathBuf>,
     /// Quick form: the domain box xmin,ymin,zmin,xmax,ymax,zmax.
-    #[arg(long, value_name = "XMIN,YMIN,ZMIN,XMAX,YMAX,ZMAX", value_delimiter = ',', num_args = 6, allow_hyphen_values = true)]
+    #[arg(
+        long,
+        value_name = "XMIN,YMIN,ZMIN,XMAX,YMAX,ZMAX",
+        value_delimiter = ',',
+        allow_hyphen_values = true
+    )]
     pub domain: Option<Vec<f64>>,
     /// Quick form: edge of the base (coarsest) cells.
     #[arg(long = "base-size", value_name = "H")]
@@ -46,7 +51,11 @@ pub struct MeshArgs {
 }
 
 fn case_from_args(a: &MeshArgs) -> Result<CaseSpec, MeshError> {
-    let quick = !a.surfaces.is_empty() || a.domain.is_some() || a.base_size.is_some() || a.surface_size.is_some() || a.fluid.is_some();
+    let quick = !a.surfaces.is_empty()
+        || a.domain.is_some()
+        || a.base_size.is_some()
+        || a.surface_size.is_some()
+        || a.fluid.is_some();
     match (&a.case, quick) {
         (Some(_), true) => Err(MeshError::Config("give either a case file or the quick-form flags (--surface, --domain, --base-size, --surface-size, --fluid), not both".into())),
         (Some(path), false) => Ok(CaseSpec::from_file(path)?),
@@ -64,6 +73,9 @@ fn case_from_args(a: &MeshArgs) -> Result<CaseSpec, MeshError> {
                 return Err(MeshError::Config(format!("give a case file, or the quick form; missing: {}", missing.join(", "))));
             }
             let d = a.domain.as_ref().unwrap();
+            if d.len() != 6 {
+                return Err(MeshError::Config(format!("--domain takes six numbers xmin,ymin,zmin,xmax,ymax,zmax, got {}", d.len())));
+            }
             let bbox = [d[0], d[1], d[2], d[3], d[4], d[5]];
             let fluid = match a.fluid.as_deref() {
                 Some("inside") => FluidSpec::Inside,
@@ -81,7 +93,9 @@ pub fn run(a: &MeshArgs) -> ExitCode {
     match run_inner(a) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            let code = e.downcast_ref::<MeshError>().map_or(1, MeshError::exit_code);
+            let code = e
+                .downcast_ref::<MeshError>()
+                .map_or(1, MeshError::exit_code);
             eprintln!("octocut mesh: error: {e:#}");
             ExitCode::from(code)
         }
@@ -128,7 +142,9 @@ fn run_inner(a: &MeshArgs) -> Result<()> {
         return Ok(());
     }
     let Some(dir) = spec.output.dir.clone() else {
-        bail!(MeshError::Config("no output directory: give --out DIR or output.dir in the case file".into()));
+        bail!(MeshError::Config(
+            "no output directory: give --out DIR or output.dir in the case file".into()
+        ));
     };
 
     let current: Mutex<Option<ProgressBar>> = Mutex::new(None);
@@ -140,16 +156,33 @@ fn run_inner(a: &MeshArgs) -> Result<()> {
         let mut cur = current.lock().unwrap();
         match p {
             Progress::Started(stage) => *cur = Some(bar(stage.label().to_string())),
-            Progress::Finished { stage, items, seconds } => {
+            Progress::Finished {
+                stage,
+                items,
+                seconds,
+            } => {
                 if let Some(b) = cur.take() {
                     b.finish_and_clear();
                 }
-                let rate = if seconds > 0.0 { items as f64 / seconds } else { 0.0 };
-                eprintln!("  {:<28} {:>8.2} s  {:>12} items  {:>12.0} /s", stage.label(), seconds, items, rate);
+                let rate = if seconds > 0.0 {
+                    items as f64 / seconds
+                } else {
+                    0.0
+                };
+                eprintln!(
+                    "  {:<28} {:>8.2} s  {:>12} items  {:>12.0} /s",
+                    stage.label(),
+                    seconds,
+                    items,
+                    rate
+                );
             }
         }
     };
-    let hooks = Hooks { progress: Some(&on_progress), cancel: None };
+    let hooks = Hooks {
+        progress: Some(&on_progress),
+        cancel: None,
+    };
     let outcome = mesher.mesh(&spec, &hooks)?;
     let written = octocut::output::write_outputs(&outcome, &spec, &dir, &hooks)
         .with_context(|| format!("writing the outputs into {}", dir.display()))?;

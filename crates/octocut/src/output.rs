@@ -12,13 +12,19 @@ use crate::spec::CaseSpec;
 use crate::stages::{Hooks, Stage, StageClock};
 use octocut_surface::Aabb;
 use octocut_writers::histogram::{render_histogram, HistogramStyle, Measure};
-use octocut_writers::slice::{mesh_values, render_slice, slice_cells, AxisPlane, ColourBy, SliceStyle, VolumeMeshCells};
+pub use octocut_writers::slice::AxisPlane;
+use octocut_writers::slice::{
+    mesh_values, render_slice, slice_cells, ColourBy, SliceStyle, VolumeMeshCells,
+};
 use octocut_writers::{write_atomically, write_vtp, write_vtu, CellArray, Encoding};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
 fn werr(path: &Path, e: impl std::fmt::Display) -> MeshError {
-    MeshError::Write { path: path.to_path_buf(), message: e.to_string() }
+    MeshError::Write {
+        path: path.to_path_buf(),
+        message: e.to_string(),
+    }
 }
 
 /// The cell-data arrays written to `mesh.vtu`: volume and the per-cell quality measures
@@ -30,7 +36,12 @@ pub fn cell_arrays(out: &Outcome) -> Vec<CellArray> {
 }
 
 /// Writes the outputs `spec.output.formats` asks for into `dir`; returns the paths written.
-pub fn write_outputs(out: &Outcome, spec: &CaseSpec, dir: &Path, hooks: &Hooks) -> Result<Vec<PathBuf>, MeshError> {
+pub fn write_outputs(
+    out: &Outcome,
+    spec: &CaseSpec,
+    dir: &Path,
+    hooks: &Hooks,
+) -> Result<Vec<PathBuf>, MeshError> {
     std::fs::create_dir_all(dir).map_err(|e| werr(dir, e))?;
     let want = |f: &str| spec.output.formats.iter().any(|x| x == f);
     let encoding = match spec.output.encoding.as_str() {
@@ -68,7 +79,10 @@ pub fn write_outputs(out: &Outcome, spec: &CaseSpec, dir: &Path, hooks: &Hooks) 
 /// The slice planes through the middle of `bodies`, one per axis.
 pub fn middle_planes(bodies: &Aabb) -> [AxisPlane; 3] {
     let c = bodies.center();
-    [0, 1, 2].map(|axis| AxisPlane { axis, value: c[axis] })
+    [0, 1, 2].map(|axis| AxisPlane {
+        axis,
+        value: c[axis],
+    })
 }
 
 /// Writes `slice-x.png`, `slice-y.png`, `slice-z.png` (by level) and `quality-histogram.png`.
@@ -83,28 +97,62 @@ pub fn write_pictures(out: &Outcome, dir: &Path) -> Result<Vec<PathBuf>, MeshErr
         let [u, v] = plane.in_plane_axes();
         // show the bodies with one body length around them, clipped to the domain
         let margin = bodies.extent().max_element();
-        let lo = [(bodies.min[u] - margin).max(domain.min[u]), (bodies.min[v] - margin).max(domain.min[v])];
-        let hi = [(bodies.max[u] + margin).min(domain.max[u]), (bodies.max[v] + margin).min(domain.max[v])];
+        let lo = [
+            (bodies.min[u] - margin).max(domain.min[u]),
+            (bodies.min[v] - margin).max(domain.min[v]),
+        ];
+        let hi = [
+            (bodies.max[u] + margin).min(domain.max[u]),
+            (bodies.max[v] + margin).min(domain.max[v]),
+        ];
         let name = ["x", "y", "z"][plane.axis];
         let style = SliceStyle {
-            title: format!("cells cut by the plane {name} = {:.4}, coloured by octree level", plane.value),
+            title: format!(
+                "cells cut by the plane {name} = {:.4}, coloured by octree level",
+                plane.value
+            ),
             value_name: "level".into(),
             view: Some((lo, hi)),
             unit: "m".into(),
             ..SliceStyle::default()
         };
         let p = dir.join(format!("slice-{name}.png"));
-        let png = render_slice(&polys, &values, ColourBy::Level, plane, &style).map_err(|e| werr(&p, e))?;
+        let png = render_slice(&polys, &values, ColourBy::Level, plane, &style)
+            .map_err(|e| werr(&p, e))?;
         write_atomically(&p, |w| w.write_all(&png)).map_err(|e| werr(&p, e))?;
         written.push(p);
     }
     let q = &out.quality.per_cell;
     let measures = [
-        Measure { name: "non-orthogonality", unit: "deg", values: &q.non_orthogonality, bins: 45, range: Some((0.0, 90.0)), limit: Some(out.quality.non_orthogonality.threshold.value) },
-        Measure { name: "skewness", unit: "", values: &q.skewness, bins: 40, range: None, limit: Some(out.quality.skewness.threshold.value) },
-        Measure { name: "volume ratio", unit: "", values: &q.volume_ratio, bins: 40, range: None, limit: None },
+        Measure {
+            name: "non-orthogonality",
+            unit: "deg",
+            values: &q.non_orthogonality,
+            bins: 45,
+            range: Some((0.0, 90.0)),
+            limit: Some(out.quality.non_orthogonality.threshold.value),
+        },
+        Measure {
+            name: "skewness",
+            unit: "",
+            values: &q.skewness,
+            bins: 40,
+            range: None,
+            limit: Some(out.quality.skewness.threshold.value),
+        },
+        Measure {
+            name: "volume ratio",
+            unit: "",
+            values: &q.volume_ratio,
+            bins: 40,
+            range: None,
+            limit: None,
+        },
     ];
-    let style = HistogramStyle { title: "cell quality (worst face of each cell)".into(), ..HistogramStyle::default() };
+    let style = HistogramStyle {
+        title: "cell quality (worst face of each cell)".into(),
+        ..HistogramStyle::default()
+    };
     let p = dir.join("quality-histogram.png");
     let png = render_histogram(&measures, &style).map_err(|e| werr(&p, e))?;
     write_atomically(&p, |w| w.write_all(&png)).map_err(|e| werr(&p, e))?;
@@ -123,9 +171,14 @@ pub enum SliceColour {
 
 /// Draws the axis-plane slice `plane` of the mesh written in `dir` (`mesh.vtu`, and
 /// `boundary.vtp` to draw the walls heavier) as PNG bytes.
-pub fn slice_written_mesh(dir: &Path, plane: AxisPlane, colour: &SliceColour) -> Result<Vec<u8>, MeshError> {
+pub fn slice_written_mesh(
+    dir: &Path,
+    plane: AxisPlane,
+    colour: &SliceColour,
+) -> Result<Vec<u8>, MeshError> {
     let vtu = dir.join("mesh.vtu");
-    let m = octocut_writers::read_vtu(&vtu).map_err(|e| MeshError::Config(format!("{}: {e}", vtu.display())))?;
+    let m = octocut_writers::read_vtu(&vtu)
+        .map_err(|e| MeshError::Config(format!("{}: {e}", vtu.display())))?;
     // wall faces: the boundary polygons of wall patches, matched by their exact coordinates
     let vtp = dir.join("boundary.vtp");
     let mut walls = std::collections::HashSet::new();
@@ -134,9 +187,16 @@ pub fn slice_written_mesh(dir: &Path, plane: AxisPlane, colour: &SliceColour) ->
             Some(octocut_writers::ReadArray::Strings(s)) => s.clone(),
             _ => Vec::new(),
         };
-        let tags = b.cell_data.get("tag").and_then(|a| a.as_f64()).unwrap_or_default();
+        let tags = b
+            .cell_data
+            .get("tag")
+            .and_then(|a| a.as_f64())
+            .unwrap_or_default();
         for i in 0..b.n_polys() {
-            let wall = tags.get(i).and_then(|&t| kinds.get(t as usize)).is_some_and(|k| k.starts_with("wall"));
+            let wall = tags
+                .get(i)
+                .and_then(|&t| kinds.get(t as usize))
+                .is_some_and(|k| k.starts_with("wall"));
             if wall {
                 walls.insert(face_key(&b.points, b.poly(i)));
             }
@@ -144,35 +204,66 @@ pub fn slice_written_mesh(dir: &Path, plane: AxisPlane, colour: &SliceColour) ->
     }
     let mut cells = octocut_writers::slice::PolyhedronCells::new(m.points.clone());
     for c in 0..m.n_cells() {
-        let faces: Vec<(&[u32], bool)> = (m.cell_offsets[c] as usize..m.cell_offsets[c + 1] as usize)
+        let faces: Vec<(&[u32], bool)> = (m.cell_offsets[c] as usize
+            ..m.cell_offsets[c + 1] as usize)
             .map(|f| {
                 let v = m.face(f);
-                (v, !walls.is_empty() && walls.contains(&face_key(&m.points, v)))
+                (
+                    v,
+                    !walls.is_empty() && walls.contains(&face_key(&m.points, v)),
+                )
             })
             .collect();
         cells.push_cell(faces);
     }
     let (values, mode, name, names) = match colour {
-        SliceColour::Level => (m.cell_data.get("level").and_then(|a| a.as_f64()), ColourBy::Level, "level".to_string(), Vec::new()),
+        SliceColour::Level => (
+            m.cell_data.get("level").and_then(|a| a.as_f64()),
+            ColourBy::Level,
+            "level".to_string(),
+            Vec::new(),
+        ),
         SliceColour::Region => {
             let names = match m.field_data.get("region_names") {
                 Some(octocut_writers::ReadArray::Strings(s)) => s.clone(),
                 _ => Vec::new(),
             };
-            (m.cell_data.get("region").and_then(|a| a.as_f64()), ColourBy::Region, "region".to_string(), names)
+            (
+                m.cell_data.get("region").and_then(|a| a.as_f64()),
+                ColourBy::Region,
+                "region".to_string(),
+                names,
+            )
         }
-        SliceColour::Quality(q) => (m.cell_data.get(q.as_str()).and_then(|a| a.as_f64()), ColourBy::Quality, q.clone(), Vec::new()),
+        SliceColour::Quality(q) => (
+            m.cell_data.get(q.as_str()).and_then(|a| a.as_f64()),
+            ColourBy::Quality,
+            q.clone(),
+            Vec::new(),
+        ),
     };
     let Some(values) = values else {
         let known: Vec<&String> = m.cell_data.keys().collect();
-        return Err(MeshError::Config(format!("{} has no cell array `{name}` (it has: {known:?})", vtu.display())));
+        return Err(MeshError::Config(format!(
+            "{} has no cell array `{name}` (it has: {known:?})",
+            vtu.display()
+        )));
     };
     let polys = slice_cells(&cells, plane);
     if polys.is_empty() {
-        return Err(MeshError::Config(format!("the plane {}={} cuts no cell of {}", ["x", "y", "z"][plane.axis], plane.value, vtu.display())));
+        return Err(MeshError::Config(format!(
+            "the plane {}={} cuts no cell of {}",
+            ["x", "y", "z"][plane.axis],
+            plane.value,
+            vtu.display()
+        )));
     }
     let style = SliceStyle {
-        title: format!("{} = {}: cells coloured by {name}", ["x", "y", "z"][plane.axis], plane.value),
+        title: format!(
+            "{} = {}: cells coloured by {name}",
+            ["x", "y", "z"][plane.axis],
+            plane.value
+        ),
         value_name: name,
         category_names: names,
         unit: "m".into(),
@@ -183,7 +274,15 @@ pub fn slice_written_mesh(dir: &Path, plane: AxisPlane, colour: &SliceColour) ->
 
 /// A face identified by the exact bits of its vertices' coordinates, in sorted order.
 fn face_key(points: &[octocut_surface::Vec3], v: &[u32]) -> Vec<[u64; 3]> {
-    let mut k: Vec<[u64; 3]> = v.iter().map(|&i| points[i as usize].to_array().map(f64::to_bits)).collect();
+    let mut k: Vec<[u64; 3]> = v
+        .iter()
+        .map(|&i| points[i as usize].to_array().map(f64::to_bits))
+        .collect();
     k.sort_unstable();
     k
+}
+
+/// Writes `bytes` to `path` through a temporary file and a rename.
+pub fn write_file_atomically(path: &Path, bytes: &[u8]) -> Result<(), MeshError> {
+    write_atomically(path, |w| w.write_all(bytes)).map_err(|e| werr(path, e))
 }

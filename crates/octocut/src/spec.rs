@@ -910,3 +910,28 @@ base_size = 1.0
         at(&e, 5, 10);
     }
 }
+
+impl CaseSpec {
+    /// Checks the values of a quick-form case (built in code, so without file positions).
+    pub fn check_quick(&self) -> Result<(), String> {
+        let pos = |x: f64| x.is_finite() && x > 0.0;
+        if !pos(self.domain.base_size) {
+            return Err(format!(
+                "--base-size must be a positive length, got {}",
+                self.domain.base_size
+            ));
+        }
+        if !pos(self.surfaces.size) {
+            return Err(format!(
+                "--surface-size must be a positive length, got {}",
+                self.surfaces.size
+            ));
+        }
+        if let BoxPlacement::Explicit(b) = &self.domain.placement {
+            if b.iter().any(|x| !x.is_finite()) || !(b[0] < b[3] && b[1] < b[4] && b[2] < b[5]) {
+                return Err(format!("--domain must be xmin,ymin,zmin,xmax,ymax,zmax with each min below its max, got {b:?}"));
+            }
+        }
+        Ok(())
+    }
+}
