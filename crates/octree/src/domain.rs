@@ -60,17 +60,29 @@ impl Domain {
             // a tiny relative slack keeps 3.0000000001 from becoming 4 cells
             let n = ((ratio * (1.0 - 1e-12)).ceil().max(1.0)) as u64;
             if ratio > limit as f64 || n > limit {
-                return Err(DomainError::TooManyBaseCells { axis: name, count: n.max(ratio as u64), limit });
+                return Err(DomainError::TooManyBaseCells {
+                    axis: name,
+                    count: n.max(ratio as u64),
+                    limit,
+                });
             }
             counts[axis] = n as u32;
             origin[axis] -= 0.5 * (n as f64 * base_size - e[axis]);
         }
-        Ok(Domain { origin, base_size, counts })
+        Ok(Domain {
+            origin,
+            base_size,
+            counts,
+        })
     }
 
     /// The box actually used.
     pub fn bounds(&self) -> Aabb {
-        let c = Vec3::new(self.counts[0] as f64, self.counts[1] as f64, self.counts[2] as f64);
+        let c = Vec3::new(
+            self.counts[0] as f64,
+            self.counts[1] as f64,
+            self.counts[2] as f64,
+        );
         Aabb::new(self.origin, self.origin + c * self.base_size)
     }
 

@@ -84,7 +84,11 @@ impl OctKey {
         let a = self.anchor();
         std::array::from_fn(|i| {
             OctKey::new(
-                [a[0] + h * (i as u32 & 1), a[1] + h * ((i as u32 >> 1) & 1), a[2] + h * ((i as u32 >> 2) & 1)],
+                [
+                    a[0] + h * (i as u32 & 1),
+                    a[1] + h * ((i as u32 >> 1) & 1),
+                    a[2] + h * ((i as u32 >> 2) & 1),
+                ],
                 l,
             )
         })
@@ -158,7 +162,12 @@ mod tests {
 
     #[test]
     fn interleave_round_trips_and_orders() {
-        let cases = [[0, 0, 0], [1, 2, 3], [(1 << 31) - 1, 5, 1 << 30], [123456789, 987654321, 2_000_000_000]];
+        let cases = [
+            [0, 0, 0],
+            [1, 2, 3],
+            [(1 << 31) - 1, 5, 1 << 30],
+            [123456789, 987654321, 2_000_000_000],
+        ];
         for c in cases {
             assert_eq!(deinterleave(interleave(c)), c);
         }
