@@ -46,6 +46,25 @@ fn main() {
         size: 4.0 / (1u64 << level) as f64,
         finest_size: None,
     });
+    if args.get(4).map(String::as_str) == Some("mem") {
+        // peak memory of balance alone: unbalanced tree in, balanced tree out
+        let (raw, _) = octocut_octree::refine_unbalanced(&d, &index, &spec).unwrap();
+        let n_raw = raw.len() as u64;
+        let (before, _) = rss();
+        let out = balance(&d, raw, BalanceMode::Full, 1).unwrap();
+        let (after, hwm) = rss();
+        let base = before - 16 * n_raw;
+        let n = out.len() as u64;
+        println!(
+            "balance: {n_raw} -> {n} leaves; RSS before {} MB, after {} MB, peak {} MB; peak above baseline {:.1} bytes/leaf; tree {:.1} bytes/leaf",
+            before >> 20,
+            after >> 20,
+            hwm >> 20,
+            (hwm - base) as f64 / n as f64,
+            (after - base) as f64 / n as f64
+        );
+        return;
+    }
     let t = Instant::now();
     let r = refine(&d, &index, &spec).unwrap();
     let total = t.elapsed().as_secs_f64();
@@ -58,6 +77,7 @@ fn main() {
         leaves as f64 / total / 1e6,
         total / leaves as f64 * 1e9
     );
+    println!("per level {:?}", r.stats.leaves_per_level);
     let tree = r.tree.into_leaves();
     let t = Instant::now();
     let (un, _) = octocut_octree::refine_unbalanced(&d, &index, &spec).unwrap();
@@ -79,4 +99,18 @@ fn main() {
         bt,
         leaves as f64 / bt / 1e6
     );
+}
+
+/// `VmRSS` and `VmHWM` of this process in bytes (Linux).
+pub fn rss() -> (u64, u64) {
+    let s = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    let field = |name: &str| {
+        s.lines()
+            .find(|l| l.starts_with(name))
+            .and_then(|l| l.split_whitespace().nth(1))
+            .and_then(|v| v.parse::<u64>().ok())
+            .unwrap_or(0)
+            * 1024
+    };
+    (field("VmRSS:"), field("VmHWM:"))
 }

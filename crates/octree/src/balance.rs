@@ -65,8 +65,34 @@ pub fn balance(
         if count[l as usize] == 0 {
             continue;
         }
+        // only leaves of level <= l-2 can be too coarse: look them up in a much smaller array
+        let coarse: Vec<(Vec<OctKey>, Vec<u32>)> = leaves
+            .par_chunks(CHUNK)
+            .enumerate()
+            .map(|(ci, chunk)| {
+                let mut k = Vec::new();
+                let mut i = Vec::new();
+                for (j, key) in chunk.iter().enumerate() {
+                    if key.level() + 2 <= l {
+                        k.push(*key);
+                        i.push((ci * CHUNK + j) as u32);
+                    }
+                }
+                (k, i)
+            })
+            .collect();
+        let mut coarse_keys = Vec::with_capacity(coarse.iter().map(|c| c.0.len()).sum());
+        let mut coarse_idx = Vec::with_capacity(coarse_keys.capacity());
+        for (k, i) in coarse {
+            coarse_keys.extend_from_slice(&k);
+            coarse_idx.extend_from_slice(&i);
+        }
+        if coarse_keys.is_empty() {
+            continue;
+        }
         let ctx = Pass {
-            leaves: &leaves,
+            coarse_keys: &coarse_keys,
+            coarse_idx: &coarse_idx,
             level: l,
             table: &table,
             ext,
@@ -74,7 +100,7 @@ pub fn balance(
         let parts: Vec<Vec<(u32, u64)>> = leaves
             .par_chunks(CHUNK)
             .enumerate()
-            .map(|(ci, chunk)| ctx.scan(ci * CHUNK, chunk))
+            .map(|(_, chunk)| ctx.scan(chunk))
             .collect();
         scratch_req.clear();
         for p in parts {
@@ -189,7 +215,9 @@ impl Table {
 }
 
 struct Pass<'a> {
-    leaves: &'a [OctKey],
+    /// The leaves of level `<= l-2`, sorted, and their indices in the leaf array.
+    coarse_keys: &'a [OctKey],
+    coarse_idx: &'a [u32],
     level: u8,
     table: &'a Table,
     ext: [u32; 3],
@@ -198,13 +226,13 @@ struct Pass<'a> {
 impl Pass<'_> {
     /// Requests `(index of a too-coarse leaf, Morton offset of the level l-1 box it must expose)`
     /// from the level-`l` leaves of one chunk.
-    fn scan(&self, base: usize, chunk: &[OctKey]) -> Vec<(u32, u64)> {
+    fn scan(&self, chunk: &[OctKey]) -> Vec<(u32, u64)> {
         let l = self.level;
         let ge = OctKey::edge_at(l - 2);
         let pe = OctKey::edge_at(l - 1);
         let shift = 3 * (MAX_DEPTH - (l - 1)) as u32;
         let t = self.table;
-        let mut fingers = vec![base; t.moff.len()];
+        let mut fingers = vec![0usize; t.moff.len()];
         let mut out = Vec::new();
         let mut flush = |g: [u32; 3], mask: u8| {
             let es =
@@ -222,10 +250,15 @@ impl Pass<'_> {
                     continue;
                 }
                 let probe = OctKey::new(ma, MAX_DEPTH);
-                let q = last_le(self.leaves, probe, fingers[mi as usize]);
-                fingers[mi as usize] = q;
-                let qk = self.leaves[q];
-                if qk.level() + 2 <= l {
+                if self.coarse_keys[0] > probe {
+                    continue;
+                }
+                let c = last_le(self.coarse_keys, probe, fingers[mi as usize]);
+                fingers[mi as usize] = c;
+                let qk = self.coarse_keys[c];
+                // the coarse leaf holds M when M's anchor lies in its Morton range
+                if probe.morton() <= qk.last_descendant_morton() {
+                    let q = self.coarse_idx[c] as usize;
                     let qm = qk.morton();
                     for c in 0..8u32 {
                         if bits & (1 << c) != 0 {
