@@ -664,3 +664,30 @@ fn too_many_leaves_is_a_clear_error() {
     let plan = octocut_octree::LevelPlan::new(&d, index.surface(), &spec).unwrap();
     assert_eq!(plan.max_level, MAX_DEPTH);
 }
+
+// ---------- configuration ----------
+
+#[test]
+fn spec_round_trips_through_json_and_defaults_fill_in() {
+    let mut spec = RefineSpec {
+        feature_angle_deg: Some(30.0),
+        transition_layers: 2,
+        ..Default::default()
+    };
+    spec.surface.push(SurfaceRule {
+        tag: TagSel::Name("wing".into()),
+        size: 0.1,
+        finest_size: Some(0.01),
+    });
+    spec.surface.push(surf_rule(TagSel::All, 0.5));
+    spec.regions.push(SizeRegion {
+        name: "pipe".into(),
+        shape: RegionShape::Cylinder { a: Vec3::ZERO, b: Vec3::X, radius: 0.2 },
+        size: 0.05,
+        grow_distance: Some(1.0),
+    });
+    spec.gap = Some(GapSpec { cells: 3, finest_size: 0.001, max_width: None });
+    let j = serde_json::to_string(&spec).unwrap();
+    assert_eq!(serde_json::from_str::<RefineSpec>(&j).unwrap(), spec);
+    assert_eq!(serde_json::from_str::<RefineSpec>("{}").unwrap(), RefineSpec::default());
+}

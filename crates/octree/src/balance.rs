@@ -47,6 +47,11 @@ pub fn balance(
             max: MAX_TRANSITION_LAYERS,
         });
     }
+    if leaves.len() > u32::MAX as usize {
+        return Err(OctreeError::TooManyLeaves {
+            limit: u32::MAX as u64,
+        });
+    }
     let n = layers as i32;
     let table = Table::new(&offsets(mode, n), n);
     let ext = domain.grid_extent();
@@ -62,7 +67,7 @@ pub fn balance(
     }
     let mut scratch_req: Vec<(u32, u64)> = Vec::new();
     for l in (2..=MAX_DEPTH).rev() {
-        if count[l as usize] == 0 {
+        if count[l as usize] == 0 || count[..=(l - 2) as usize].iter().all(|&c| c == 0) {
             continue;
         }
         // only leaves of level <= l-2 can be too coarse: look them up in a much smaller array

@@ -327,21 +327,23 @@ impl Ctx<'_> {
             if !few && items.iter().all(|it| it.1.len() <= heavy) {
                 break;
             }
-            let mut next = Vec::with_capacity(items.len() * 2);
-            let mut scratch = Scratch::default();
-            let mut changed = false;
-            for (k, t, p) in items {
-                let split = (few || t.len() > heavy) && self.wants(k, &d.key_box(k), &t, &p);
-                if !split {
-                    next.push((k, t, p));
-                    continue;
-                }
-                changed = true;
-                self.fill(k, &t, &p, &mut scratch);
-                for (i, c) in k.children().into_iter().enumerate() {
-                    next.push((c, scratch.t[i].clone(), scratch.p[i].clone()));
-                }
-            }
+            let parts: Vec<(bool, Vec<Item>)> = items
+                .into_par_iter()
+                .map_init(Scratch::default, |scratch, (k, t, p)| {
+                    let split = (few || t.len() > heavy) && self.wants(k, &d.key_box(k), &t, &p);
+                    if !split {
+                        return (false, vec![(k, t, p)]);
+                    }
+                    self.fill(k, &t, &p, scratch);
+                    let kids = k.children();
+                    let v = (0..8)
+                        .map(|i| (kids[i], scratch.t[i].clone(), scratch.p[i].clone()))
+                        .collect();
+                    (true, v)
+                })
+                .collect();
+            let changed = parts.iter().any(|p| p.0);
+            let next: Vec<Item> = parts.into_iter().flat_map(|p| p.1).collect();
             items = next;
             if !changed || round > 12 {
                 break;
