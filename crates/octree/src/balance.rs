@@ -66,6 +66,7 @@ pub fn balance(
         }
     }
     let mut scratch_req: Vec<(u32, u64)> = Vec::new();
+    let mut spare: Vec<OctKey> = Vec::new();
     for l in (2..=MAX_DEPTH).rev() {
         if count[l as usize] == 0 || count[..=(l - 2) as usize].iter().all(|&c| c == 0) {
             continue;
@@ -116,8 +117,9 @@ pub fn balance(
         }
         scratch_req.par_sort_unstable();
         scratch_req.dedup();
-        let (new_leaves, removed, added) = apply(&leaves, &scratch_req, l - 1);
-        leaves = new_leaves;
+        // the rebuilt array goes into a reused buffer (no fresh pages each pass)
+        let (removed, added) = apply(&leaves, &scratch_req, l - 1, &mut spare);
+        std::mem::swap(&mut leaves, &mut spare);
         for (lv, c) in removed.iter().enumerate() {
             count[lv] -= c;
         }
@@ -125,6 +127,7 @@ pub fn balance(
             count[lv] += c;
         }
     }
+    leaves.shrink_to_fit();
     Ok(leaves)
 }
 
@@ -358,8 +361,13 @@ pub(crate) fn last_le(keys: &[OctKey], probe: OctKey, hint: usize) -> usize {
 }
 
 /// Replaces each requested leaf by its minimal refinement exposing the requested boxes.
-/// Returns the new leaves and the per-level counts removed and added.
-fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec<u64>, Vec<u64>) {
+/// Fills `out` with the new leaves; returns the per-level counts removed and added.
+fn apply(
+    leaves: &[OctKey],
+    req: &[(u32, u64)],
+    target: u8,
+    out: &mut Vec<OctKey>,
+) -> (Vec<u64>, Vec<u64>) {
     // split the requests into groups of one leaf, then into parallel slices at group boundaries
     let mut bounds = vec![0usize];
     let step = req.len().div_ceil(64).max(1);
@@ -402,7 +410,8 @@ fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec
         })
         .collect();
     let extra: usize = parts.iter().map(|p| p.1.len() - p.0.len()).sum();
-    let mut out = Vec::with_capacity(leaves.len() + extra);
+    out.clear();
+    out.reserve_exact(leaves.len() + extra);
     let mut removed = vec![0u64; MAX_DEPTH as usize + 1];
     let mut added = vec![0u64; MAX_DEPTH as usize + 1];
     let mut next = 0usize;
@@ -420,7 +429,7 @@ fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec
         }
     }
     out.extend_from_slice(&leaves[next..]);
-    (out, removed, added)
+    (removed, added)
 }
 
 /// Appends the coarsest refinement of `node` in which every box of `reqs` (sorted, inside
