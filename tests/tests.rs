@@ -3,3 +3,4 @@ mod spatial_queries;
 mod pipeline_e2e;
 mod surface_intake;
 mod cutcell_reference;
+mod octree_invariants;

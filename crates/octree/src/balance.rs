@@ -35,29 +35,78 @@ const CHUNK: usize = 1 << 14;
 /// let b = balance(&d, leaves, BalanceMode::Full, 1).unwrap();
 /// assert!(Octree::from_sorted_leaves(d, b).check_tiling().is_ok());
 /// ```
-pub fn balance(domain: &Domain, mut leaves: Vec<OctKey>, mode: BalanceMode, layers: u32) -> Result<Vec<OctKey>, OctreeError> {
+pub fn balance(
+    domain: &Domain,
+    mut leaves: Vec<OctKey>,
+    mode: BalanceMode,
+    layers: u32,
+) -> Result<Vec<OctKey>, OctreeError> {
     if layers == 0 || layers > MAX_TRANSITION_LAYERS {
-        return Err(OctreeError::BadLayers { got: layers, max: MAX_TRANSITION_LAYERS });
+        return Err(OctreeError::BadLayers {
+            got: layers,
+            max: MAX_TRANSITION_LAYERS,
+        });
+    }
+    if leaves.len() > u32::MAX as usize {
+        return Err(OctreeError::TooManyLeaves {
+            limit: u32::MAX as u64,
+        });
     }
     let n = layers as i32;
-    let offsets: Vec<[i32; 3]> = offsets(mode, n);
+    let table = Table::new(&offsets(mode, n), n);
     let ext = domain.grid_extent();
     let mut count = [0u64; MAX_DEPTH as usize + 1];
-    for c in leaves.par_chunks(CHUNK).map(level_histogram).collect::<Vec<_>>() {
+    for c in leaves
+        .par_chunks(CHUNK)
+        .map(level_histogram)
+        .collect::<Vec<_>>()
+    {
         for l in 0..count.len() {
             count[l] += c[l];
         }
     }
     let mut scratch_req: Vec<(u32, u64)> = Vec::new();
+    let mut spare: Vec<OctKey> = Vec::new();
     for l in (2..=MAX_DEPTH).rev() {
-        if count[l as usize] == 0 {
+        if count[l as usize] == 0 || count[..=(l - 2) as usize].iter().all(|&c| c == 0) {
             continue;
         }
-        let ctx = Pass { leaves: &leaves, level: l, n, offsets: &offsets, ext };
+        // only leaves of level <= l-2 can be too coarse: look them up in a much smaller array
+        let coarse: Vec<(Vec<OctKey>, Vec<u32>)> = leaves
+            .par_chunks(CHUNK)
+            .enumerate()
+            .map(|(ci, chunk)| {
+                let mut k = Vec::new();
+                let mut i = Vec::new();
+                for (j, key) in chunk.iter().enumerate() {
+                    if key.level() + 2 <= l {
+                        k.push(*key);
+                        i.push((ci * CHUNK + j) as u32);
+                    }
+                }
+                (k, i)
+            })
+            .collect();
+        let mut coarse_keys = Vec::with_capacity(coarse.iter().map(|c| c.0.len()).sum());
+        let mut coarse_idx = Vec::with_capacity(coarse_keys.capacity());
+        for (k, i) in coarse {
+            coarse_keys.extend_from_slice(&k);
+            coarse_idx.extend_from_slice(&i);
+        }
+        if coarse_keys.is_empty() {
+            continue;
+        }
+        let ctx = Pass {
+            coarse_keys: &coarse_keys,
+            coarse_idx: &coarse_idx,
+            level: l,
+            table: &table,
+            ext,
+        };
         let parts: Vec<Vec<(u32, u64)>> = leaves
             .par_chunks(CHUNK)
             .enumerate()
-            .map(|(ci, chunk)| ctx.scan(ci * CHUNK, chunk))
+            .map(|(_, chunk)| ctx.scan(chunk))
             .collect();
         scratch_req.clear();
         for p in parts {
@@ -68,8 +117,9 @@ pub fn balance(domain: &Domain, mut leaves: Vec<OctKey>, mode: BalanceMode, laye
         }
         scratch_req.par_sort_unstable();
         scratch_req.dedup();
-        let (new_leaves, removed, added) = apply(&leaves, &scratch_req, l - 1);
-        leaves = new_leaves;
+        // the rebuilt array goes into a reused buffer (no fresh pages each pass)
+        let (removed, added) = apply(&leaves, &scratch_req, l - 1, &mut spare);
+        std::mem::swap(&mut leaves, &mut spare);
         for (lv, c) in removed.iter().enumerate() {
             count[lv] -= c;
         }
@@ -77,6 +127,7 @@ pub fn balance(domain: &Domain, mut leaves: Vec<OctKey>, mode: BalanceMode, laye
             count[lv] += c;
         }
     }
+    leaves.shrink_to_fit();
     Ok(leaves)
 }
 
@@ -108,113 +159,152 @@ fn offsets(mode: BalanceMode, n: i32) -> Vec<[i32; 3]> {
     v
 }
 
+/// For every mask of children of a grandparent `G` that hold level-`l` leaves, the level-`l-2`
+/// boxes `M` around `G` to look up and, for each, which of its 8 children (level `l-1` boxes)
+/// lie in the required neighbourhoods. Depends only on the mode and the layer count.
+struct Table {
+    /// `M` offsets in units of `G`'s edge.
+    moff: Vec<[i32; 3]>,
+    start: Vec<u32>,
+    /// `(index into moff, children bit set)`.
+    entries: Vec<(u8, u8)>,
+}
+
+impl Table {
+    fn new(offsets: &[[i32; 3]], n: i32) -> Table {
+        let r = (n + 2) / 2;
+        let mut moff = Vec::new();
+        for z in -r..=r {
+            for y in -r..=r {
+                for x in -r..=r {
+                    if (x, y, z) != (0, 0, 0) {
+                        moff.push([x, y, z]);
+                    }
+                }
+            }
+        }
+        let mut start = vec![0u32];
+        let mut entries = Vec::new();
+        for mask in 0..256u32 {
+            // required level l-1 cells, in G-local coordinates (G covers 0..2 on each axis)
+            let mut req = std::collections::BTreeSet::new();
+            for c in 0..8 {
+                if mask & (1 << c) != 0 {
+                    let cc = [c & 1, (c >> 1) & 1, (c >> 2) & 1];
+                    for o in offsets {
+                        req.insert([cc[0] + o[0], cc[1] + o[1], cc[2] + o[2]]);
+                    }
+                }
+            }
+            for (mi, m) in moff.iter().enumerate() {
+                let mut bits = 0u8;
+                for c in 0..8 {
+                    let cell = [
+                        2 * m[0] + (c & 1),
+                        2 * m[1] + ((c >> 1) & 1),
+                        2 * m[2] + ((c >> 2) & 1),
+                    ];
+                    if req.contains(&cell) {
+                        bits |= 1 << c;
+                    }
+                }
+                if bits != 0 {
+                    entries.push((mi as u8, bits));
+                }
+            }
+            start.push(entries.len() as u32);
+        }
+        Table {
+            moff,
+            start,
+            entries,
+        }
+    }
+}
+
 struct Pass<'a> {
-    leaves: &'a [OctKey],
+    /// The leaves of level `<= l-2`, sorted, and their indices in the leaf array.
+    coarse_keys: &'a [OctKey],
+    coarse_idx: &'a [u32],
     level: u8,
-    n: i32,
-    offsets: &'a [[i32; 3]],
+    table: &'a Table,
     ext: [u32; 3],
 }
 
 impl Pass<'_> {
-    /// Requests `(index of a too-coarse leaf, level l-1 box it must expose)` from the level-`l`
-    /// leaves of one chunk.
-    fn scan(&self, base: usize, chunk: &[OctKey]) -> Vec<(u32, u64)> {
+    /// Requests `(index of a too-coarse leaf, Morton offset of the level l-1 box it must expose)`
+    /// from the level-`l` leaves of one chunk.
+    fn scan(&self, chunk: &[OctKey]) -> Vec<(u32, u64)> {
         let l = self.level;
         let ge = OctKey::edge_at(l - 2);
         let pe = OctKey::edge_at(l - 1);
-        let side = (2 * self.n + 2) as usize; // local cells of level l-1 around G
-        let mut bits = vec![0u64; (side * side * side).div_ceil(64)];
-        let r = (self.n + 2) / 2; // G-size boxes reach
-        let mw = (2 * r + 1) as usize;
-        let mut fingers = vec![base; mw * mw * mw];
+        let shift = 3 * (MAX_DEPTH - (l - 1)) as u32;
+        let t = self.table;
+        let mut fingers = vec![0usize; t.moff.len()];
         let mut out = Vec::new();
-        let mut cur: Option<([u32; 3], u8)> = None;
-        let flush = |g: [u32; 3], mask: u8, bits: &mut Vec<u64>, fingers: &mut Vec<usize>, out: &mut Vec<(u32, u64)>| {
-            bits.iter_mut().for_each(|b| *b = 0);
-            let n = self.n;
-            for c in 0..8 {
-                if mask & (1 << c) == 0 {
+        let mut flush = |g: [u32; 3], mask: u8| {
+            let es =
+                &t.entries[t.start[mask as usize] as usize..t.start[mask as usize + 1] as usize];
+            for &(mi, bits) in es {
+                let m = t.moff[mi as usize];
+                let mut ma = [0u32; 3];
+                let mut outside = false;
+                for ax in 0..3 {
+                    let v = g[ax] as i64 + m[ax] as i64 * ge as i64;
+                    outside |= v < 0 || v >= self.ext[ax] as i64;
+                    ma[ax] = v as u32;
+                }
+                if outside {
                     continue;
                 }
-                let cc = [c & 1, (c >> 1) & 1, (c >> 2) & 1];
-                for o in self.offsets {
-                    let i = (cc[0] + o[0] + n) as usize + side * ((cc[1] + o[1] + n) as usize + side * (cc[2] + o[2] + n) as usize);
-                    bits[i / 64] |= 1 << (i % 64);
+                let probe = OctKey::new(ma, MAX_DEPTH);
+                if self.coarse_keys[0] > probe {
+                    continue;
                 }
-            }
-            for mz in -r..=r {
-                for my in -r..=r {
-                    for mx in -r..=r {
-                        if mx == 0 && my == 0 && mz == 0 {
-                            continue;
-                        }
-                        let m = [mx, my, mz];
-                        // anchor of M, skipped when outside the domain
-                        let mut ma = [0u32; 3];
-                        let mut outside = false;
-                        for ax in 0..3 {
-                            let v = g[ax] as i64 + m[ax] as i64 * ge as i64;
-                            if v < 0 || v >= self.ext[ax] as i64 {
-                                outside = true;
-                            }
-                            ma[ax] = v as u32;
-                        }
-                        if outside {
-                            continue;
-                        }
-                        let mut cells = [0usize; 8];
-                        let mut nc = 0;
-                        for c in 0..8 {
-                            let loc = [2 * mx + (c & 1) + n, 2 * my + ((c >> 1) & 1) + n, 2 * mz + ((c >> 2) & 1) + n];
-                            if loc.iter().any(|&v| v < 0 || v >= side as i32) {
-                                continue;
-                            }
-                            let i = loc[0] as usize + side * (loc[1] as usize + side * loc[2] as usize);
-                            if bits[i / 64] & (1 << (i % 64)) != 0 {
-                                cells[nc] = c as usize;
-                                nc += 1;
-                            }
-                        }
-                        if nc == 0 {
-                            continue;
-                        }
-                        let fi = (mx + r) as usize + mw * ((my + r) as usize + mw * (mz + r) as usize);
-                        let probe = OctKey::new(ma, MAX_DEPTH);
-                        let q = last_le(self.leaves, probe, fingers[fi]);
-                        fingers[fi] = q;
-                        if self.leaves[q].level() + 2 <= l {
-                            for &c in &cells[..nc] {
-                                let na = [ma[0] + pe * (c as u32 & 1), ma[1] + pe * ((c as u32 >> 1) & 1), ma[2] + pe * ((c as u32 >> 2) & 1)];
-                                // the box's Morton offset inside leaf q, in level l-1 cells
-                                let qm = self.leaves[q].morton();
-                                let rel = (OctKey::new(na, l - 1).morton() - qm) >> (3 * (MAX_DEPTH - (l - 1)) as u32);
-                                out.push((q as u32, rel as u64));
-                            }
+                let c = last_le(self.coarse_keys, probe, fingers[mi as usize]);
+                fingers[mi as usize] = c;
+                let qk = self.coarse_keys[c];
+                // the coarse leaf holds M when M's anchor lies in its Morton range
+                if probe.morton() <= qk.last_descendant_morton() {
+                    let q = self.coarse_idx[c] as usize;
+                    let qm = qk.morton();
+                    for c in 0..8u32 {
+                        if bits & (1 << c) != 0 {
+                            let na = [
+                                ma[0] + pe * (c & 1),
+                                ma[1] + pe * ((c >> 1) & 1),
+                                ma[2] + pe * ((c >> 2) & 1),
+                            ];
+                            // the box's Morton offset inside leaf q, in level l-1 cells
+                            let rel = (OctKey::new(na, l - 1).morton() - qm) >> shift;
+                            out.push((q as u32, rel as u64));
                         }
                     }
                 }
             }
         };
+        let mut cur: Option<([u32; 3], u8)> = None;
         for k in chunk {
             if k.level() != l {
                 continue;
             }
             let a = k.anchor();
             let g = a.map(|c| c & !(ge - 1));
-            let pc = ((a[0] & pe != 0) as u8) | ((a[1] & pe != 0) as u8) << 1 | ((a[2] & pe != 0) as u8) << 2;
+            let pc = ((a[0] & pe != 0) as u8)
+                | ((a[1] & pe != 0) as u8) << 1
+                | ((a[2] & pe != 0) as u8) << 2;
             match &mut cur {
                 Some((cg, mask)) if *cg == g => *mask |= 1 << pc,
                 _ => {
                     if let Some((cg, mask)) = cur {
-                        flush(cg, mask, &mut bits, &mut fingers, &mut out);
+                        flush(cg, mask);
                     }
                     cur = Some((g, 1 << pc));
                 }
             }
         }
         if let Some((cg, mask)) = cur {
-            flush(cg, mask, &mut bits, &mut fingers, &mut out);
+            flush(cg, mask);
         }
         out
     }
@@ -271,8 +361,13 @@ pub(crate) fn last_le(keys: &[OctKey], probe: OctKey, hint: usize) -> usize {
 }
 
 /// Replaces each requested leaf by its minimal refinement exposing the requested boxes.
-/// Returns the new leaves and the per-level counts removed and added.
-fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec<u64>, Vec<u64>) {
+/// Fills `out` with the new leaves; returns the per-level counts removed and added.
+fn apply(
+    leaves: &[OctKey],
+    req: &[(u32, u64)],
+    target: u8,
+    out: &mut Vec<OctKey>,
+) -> (Vec<u64>, Vec<u64>) {
     // split the requests into groups of one leaf, then into parallel slices at group boundaries
     let mut bounds = vec![0usize];
     let step = req.len().div_ceil(64).max(1);
@@ -303,7 +398,9 @@ fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec
                 reqs.clear();
                 let q = leaves[r[s].0 as usize];
                 let shift = 3 * (MAX_DEPTH - target) as u32;
-                reqs.extend(r[s..e].iter().map(|x| OctKey(((q.morton() + ((x.1 as u128) << shift)) << 5) | target as u128)));
+                reqs.extend(r[s..e].iter().map(|x| {
+                    OctKey(((q.morton() + ((x.1 as u128) << shift)) << 5) | target as u128)
+                }));
                 let before = keys.len();
                 split_into(leaves[r[s].0 as usize], &reqs, target, &mut keys);
                 groups.push((r[s].0, (keys.len() - before) as u32));
@@ -313,7 +410,8 @@ fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec
         })
         .collect();
     let extra: usize = parts.iter().map(|p| p.1.len() - p.0.len()).sum();
-    let mut out = Vec::with_capacity(leaves.len() + extra);
+    out.clear();
+    out.reserve_exact(leaves.len() + extra);
     let mut removed = vec![0u64; MAX_DEPTH as usize + 1];
     let mut added = vec![0u64; MAX_DEPTH as usize + 1];
     let mut next = 0usize;
@@ -331,7 +429,7 @@ fn apply(leaves: &[OctKey], req: &[(u32, u64)], target: u8) -> (Vec<OctKey>, Vec
         }
     }
     out.extend_from_slice(&leaves[next..]);
-    (out, removed, added)
+    (removed, added)
 }
 
 /// Appends the coarsest refinement of `node` in which every box of `reqs` (sorted, inside
@@ -352,7 +450,12 @@ fn split_into(node: OctKey, reqs: &[OctKey], target: u8, out: &mut Vec<OctKey>) 
 
 /// Brute-force check of the balance rule with `layers` transition layers: returns the first pair
 /// of leaves `(i, j)` where leaf `j` lies too close to the finer leaf `i`. Quadratic; for tests.
-pub fn find_violation(domain: &Domain, leaves: &[OctKey], mode: BalanceMode, layers: u32) -> Option<(usize, usize)> {
+pub fn find_violation(
+    domain: &Domain,
+    leaves: &[OctKey],
+    mode: BalanceMode,
+    layers: u32,
+) -> Option<(usize, usize)> {
     let _ = domain;
     let n = layers as i64;
     for (i, a) in leaves.iter().enumerate() {
@@ -433,20 +536,35 @@ mod tests {
         let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::new(2.0, 1.0, 1.0)), 1.0).unwrap();
         let leaves = refine_corner(&d, 6);
         assert!(find_violation(&d, &leaves, BalanceMode::Full, 1).is_some());
-        for (mode, layers) in [(BalanceMode::Full, 1), (BalanceMode::Face, 1), (BalanceMode::Full, 2), (BalanceMode::Face, 3)] {
+        for (mode, layers) in [
+            (BalanceMode::Full, 1),
+            (BalanceMode::Face, 1),
+            (BalanceMode::Full, 2),
+            (BalanceMode::Face, 3),
+        ] {
             let b = balance(&d, leaves.clone(), mode, layers).unwrap();
             let t = Octree::from_sorted_leaves(d, b.clone());
             t.check_tiling().unwrap();
-            assert_eq!(find_violation(&d, &b, mode, layers), None, "{mode:?} {layers}");
+            assert_eq!(
+                find_violation(&d, &b, mode, layers),
+                None,
+                "{mode:?} {layers}"
+            );
             // idempotent
             assert_eq!(balance(&d, b.clone(), mode, layers).unwrap(), b);
             // coarsest: undoing any one split (merging 8 siblings) breaks the rule or the input
             let original: std::collections::HashSet<OctKey> = leaves.iter().copied().collect();
             let mut i = 0;
             while i + 8 <= b.len() {
-                let p = if b[i].level() > 0 { Some(b[i].parent()) } else { None };
+                let p = if b[i].level() > 0 {
+                    Some(b[i].parent())
+                } else {
+                    None
+                };
                 if let Some(p) = p {
-                    if b[i..i + 8].iter().all(|k| k.level() == b[i].level() && k.parent() == p)
+                    if b[i..i + 8]
+                        .iter()
+                        .all(|k| k.level() == b[i].level() && k.parent() == p)
                         && b[i..i + 8].iter().all(|k| !original.contains(k))
                     {
                         let mut merged = b[..i].to_vec();

@@ -50,28 +50,48 @@ pub struct Estimate {
 /// assert!(e.exact);
 /// assert_eq!(e.leaves, refine(&d, &index, &spec).unwrap().stats.leaves);
 /// ```
-pub fn estimate(domain: &Domain, index: &SurfaceIndex, spec: &RefineSpec) -> Result<Estimate, OctreeError> {
+pub fn estimate(
+    domain: &Domain,
+    index: &SurfaceIndex,
+    spec: &RefineSpec,
+) -> Result<Estimate, OctreeError> {
+    estimate_with_budget(domain, index, spec, DRY_RUN_LEAVES)
+}
+
+/// [`estimate`] with dry runs stopping at `dry_run_leaves` leaves instead of [`DRY_RUN_LEAVES`].
+pub fn estimate_with_budget(
+    domain: &Domain,
+    index: &SurfaceIndex,
+    spec: &RefineSpec,
+    dry_run_leaves: u64,
+) -> Result<Estimate, OctreeError> {
+    let budget = dry_run_leaves.max(1);
     let plan = LevelPlan::new(domain, index.surface(), spec)?;
     let lmax = plan.max_level;
     let mut prev: Option<u64> = None;
     let mut cap = 0u8;
     loop {
-        let leaves = match refine_leaves(domain, index, spec, &plan, cap, Some(8 * DRY_RUN_LEAVES)) {
+        let leaves = match refine_leaves(domain, index, spec, &plan, cap, Some(8 * budget)) {
             Ok((l, _)) => balance(domain, l, spec.balance, spec.transition_layers)?.len() as u64,
             // the capped tree alone is large: it bounds the answer from below
-            Err(OctreeError::TooManyLeaves { .. }) => 8 * DRY_RUN_LEAVES,
+            Err(OctreeError::TooManyLeaves { .. }) => 8 * budget,
             Err(e) => return Err(e),
         };
-        if cap >= lmax || leaves >= DRY_RUN_LEAVES {
+        if cap >= lmax || leaves >= budget {
             let (n, exact) = if cap >= lmax {
                 (leaves, true)
             } else {
                 let ratio = prev.map_or(8.0, |p| (leaves as f64 / p.max(1) as f64).clamp(1.0, 8.0));
-                ((leaves as f64 * ratio.powi((lmax - cap) as i32)).min(u64::MAX as f64) as u64, false)
+                (
+                    (leaves as f64 * ratio.powi((lmax - cap) as i32)).min(u64::MAX as f64) as u64,
+                    false,
+                )
             };
             return Ok(Estimate {
                 leaves: n,
-                memory_bytes: n.saturating_mul(PEAK_BYTES_PER_LEAF).saturating_add(index.surface().triangles.len() as u64 * 256),
+                memory_bytes: n
+                    .saturating_mul(PEAK_BYTES_PER_LEAF)
+                    .saturating_add(index.surface().triangles.len() as u64 * 256),
                 exact,
                 measured_level: cap,
                 max_level: lmax,

@@ -32,7 +32,10 @@ pub struct FeatureTest {
 impl FeatureTest {
     pub fn new(angle_deg: f64) -> FeatureTest {
         let a = angle_deg.to_radians();
-        FeatureTest { cos: a.cos(), chord: 2.0 * (0.5 * a).sin() }
+        FeatureTest {
+            cos: a.cos(),
+            chord: 2.0 * (0.5 * a).sin(),
+        }
     }
 
     /// True when the normals `normals[i]` for `i` in `ids` spread by more than the angle.
@@ -54,7 +57,10 @@ impl FeatureTest {
         if count > EXACT_LIMIT {
             return true;
         }
-        let v: Vec<Vec3> = ids.map(|i| normals[i as usize]).filter(|n| *n != Vec3::ZERO).collect();
+        let v: Vec<Vec3> = ids
+            .map(|i| normals[i as usize])
+            .filter(|n| *n != Vec3::ZERO)
+            .collect();
         for i in 0..v.len() {
             for j in i + 1..v.len() {
                 if v[i].dot(v[j]) < self.cos {

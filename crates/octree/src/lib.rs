@@ -31,9 +31,11 @@ pub mod tree;
 
 pub use balance::balance;
 pub use domain::{Domain, DomainError};
-pub use estimate::{estimate, Estimate};
+pub use estimate::{estimate, estimate_with_budget, Estimate};
 pub use key::{OctKey, MAX_DEPTH};
-pub use refine::{leaf_regions, refine, RefineStats, Refined};
+pub use refine::{leaf_regions, refine, refine_unbalanced, RefineStats, Refined};
 pub use region::{RegionShape, SizeRegion};
-pub use spec::{BalanceMode, GapSpec, LevelPlan, OctreeError, PlannedLevel, RefineSpec, SurfaceRule, TagSel};
+pub use spec::{
+    BalanceMode, GapSpec, LevelPlan, OctreeError, PlannedLevel, RefineSpec, SurfaceRule, TagSel,
+};
 pub use tree::{Octree, DIRECTIONS};

@@ -49,9 +49,14 @@ pub struct Refined {
 }
 
 /// Refines the forest over `domain` by `spec` toward the surface of `index`, then balances it.
-pub fn refine(domain: &Domain, index: &SurfaceIndex, spec: &RefineSpec) -> Result<Refined, OctreeError> {
+pub fn refine(
+    domain: &Domain,
+    index: &SurfaceIndex,
+    spec: &RefineSpec,
+) -> Result<Refined, OctreeError> {
     let plan = LevelPlan::new(domain, index.surface(), spec)?;
-    let (leaves, gap_prisms) = refine_leaves(domain, index, spec, &plan, MAX_DEPTH, spec.max_leaves)?;
+    let (leaves, gap_prisms) =
+        refine_leaves(domain, index, spec, &plan, MAX_DEPTH, spec.max_leaves)?;
     let leaves_refined = leaves.len() as u64;
     let leaves = balance(domain, leaves, spec.balance, spec.transition_layers)?;
     if let Some(limit) = spec.max_leaves {
@@ -66,8 +71,28 @@ pub fn refine(domain: &Domain, index: &SurfaceIndex, spec: &RefineSpec) -> Resul
     while per.len() > 1 && per[per.len() - 1] == 0 {
         per.pop();
     }
-    let stats = RefineStats { leaves_refined, leaves: leaves.len() as u64, leaves_per_level: per, gap_prisms };
-    Ok(Refined { tree: Octree::from_sorted_leaves(*domain, leaves), plan, stats })
+    let stats = RefineStats {
+        leaves_refined,
+        leaves: leaves.len() as u64,
+        leaves_per_level: per,
+        gap_prisms,
+    };
+    Ok(Refined {
+        tree: Octree::from_sorted_leaves(*domain, leaves),
+        plan,
+        stats,
+    })
+}
+
+/// The leaves the criteria ask for, before balance (sorted, tiling the domain), with the plan.
+pub fn refine_unbalanced(
+    domain: &Domain,
+    index: &SurfaceIndex,
+    spec: &RefineSpec,
+) -> Result<(Vec<OctKey>, LevelPlan), OctreeError> {
+    let plan = LevelPlan::new(domain, index.surface(), spec)?;
+    let (leaves, _) = refine_leaves(domain, index, spec, &plan, MAX_DEPTH, spec.max_leaves)?;
+    Ok((leaves, plan))
 }
 
 /// For each leaf, the index of the first region of `regions` holding its centre.
@@ -76,7 +101,10 @@ pub fn leaf_regions(tree: &Octree, regions: &[SizeRegion]) -> Vec<Option<u16>> {
         .par_iter()
         .map(|k| {
             let c = tree.domain.key_box(*k).center();
-            regions.iter().position(|r| r.shape.contains(c)).map(|i| i.min(u16::MAX as usize) as u16)
+            regions
+                .iter()
+                .position(|r| r.shape.contains(c))
+                .map(|i| i.min(u16::MAX as usize) as u16)
         })
         .collect()
 }
@@ -125,18 +153,43 @@ pub(crate) fn refine_leaves(
     let s = index.surface();
     let nt = s.triangles.len();
     let tag_need: Vec<u8> = (0..plan.tag_level.len())
-        .map(|i| plan.tag_level[i].max(plan.tag_feature_level[i].unwrap_or(0)).min(cap))
+        .map(|i| {
+            plan.tag_level[i]
+                .max(plan.tag_feature_level[i].unwrap_or(0))
+                .min(cap)
+        })
         .collect();
     let tris: Vec<[Vec3; 3]> = (0..nt).map(|t| s.corners(t)).collect();
-    let tlevel: Vec<u8> = s.tags.iter().map(|g| plan.tag_level.get(g.0 as usize).copied().unwrap_or(0).min(cap)).collect();
-    let need: Vec<u8> = s.tags.iter().map(|g| tag_need.get(g.0 as usize).copied().unwrap_or(0)).collect();
+    let tlevel: Vec<u8> = s
+        .tags
+        .iter()
+        .map(|g| {
+            plan.tag_level
+                .get(g.0 as usize)
+                .copied()
+                .unwrap_or(0)
+                .min(cap)
+        })
+        .collect();
+    let need: Vec<u8> = s
+        .tags
+        .iter()
+        .map(|g| tag_need.get(g.0 as usize).copied().unwrap_or(0))
+        .collect();
     let prisms = match &spec.gap {
         Some(g) => {
             let coarsest = (0..plan.tag_level.len())
                 .filter(|&i| plan.tag_level[i] > 0)
                 .map(|i| domain.cell_size(plan.tag_level[i]))
                 .fold(0.0f64, f64::max);
-            let width = g.max_width.unwrap_or(g.cells as f64 * if coarsest > 0.0 { coarsest } else { domain.base_size });
+            let width = g.max_width.unwrap_or(
+                g.cells as f64
+                    * if coarsest > 0.0 {
+                        coarsest
+                    } else {
+                        domain.base_size
+                    },
+            );
             let mut p = find_gaps(index, domain, g.cells, width, plan.gap_level.unwrap_or(0));
             for q in &mut p {
                 q.level = q.level.min(cap);
@@ -158,7 +211,9 @@ pub(crate) fn refine_leaves(
     let ctx = Ctx {
         domain,
         tbox: tris.iter().map(|t| Aabb::from_points(*t)).collect(),
-        normals: (0..nt).map(|t| s.area_normal(t).normalize_or_zero()).collect(),
+        normals: (0..nt)
+            .map(|t| s.area_normal(t).normalize_or_zero())
+            .collect(),
         tris,
         tlevel,
         need,
@@ -174,7 +229,11 @@ pub(crate) fn refine_leaves(
     let parts: Vec<Vec<OctKey>> = items
         .into_par_iter()
         .map_init(
-            || (0..=MAX_DEPTH).map(|_| Scratch::default()).collect::<Vec<_>>(),
+            || {
+                (0..=MAX_DEPTH)
+                    .map(|_| Scratch::default())
+                    .collect::<Vec<_>>()
+            },
             |scratch, (key, t, p)| {
                 let mut out = Vec::new();
                 let l = key.level() as usize;
@@ -209,7 +268,9 @@ impl Ctx<'_> {
     fn frontier(&self) -> Vec<Item> {
         let d = self.domain;
         let mut lists: Vec<(u32, u32, bool)> = Vec::new(); // (base cell linear index, id, is prism)
-        let cell = |p: Vec3, ax: usize| (((p[ax] - d.origin[ax]) / d.base_size).floor().max(0.0) as u32).min(d.counts[ax] - 1);
+        let cell = |p: Vec3, ax: usize| {
+            (((p[ax] - d.origin[ax]) / d.base_size).floor().max(0.0) as u32).min(d.counts[ax] - 1)
+        };
         let push_range = |b: &Aabb, id: u32, prism: bool, lists: &mut Vec<(u32, u32, bool)>| {
             let lo = [cell(b.min, 0), cell(b.min, 1), cell(b.min, 2)];
             let hi = [cell(b.max, 0), cell(b.max, 1), cell(b.max, 2)];
@@ -266,21 +327,23 @@ impl Ctx<'_> {
             if !few && items.iter().all(|it| it.1.len() <= heavy) {
                 break;
             }
-            let mut next = Vec::with_capacity(items.len() * 2);
-            let mut scratch = Scratch::default();
-            let mut changed = false;
-            for (k, t, p) in items {
-                let split = (few || t.len() > heavy) && self.wants(k, &d.key_box(k), &t, &p);
-                if !split {
-                    next.push((k, t, p));
-                    continue;
-                }
-                changed = true;
-                self.fill(k, &t, &p, &mut scratch);
-                for (i, c) in k.children().into_iter().enumerate() {
-                    next.push((c, scratch.t[i].clone(), scratch.p[i].clone()));
-                }
-            }
+            let parts: Vec<(bool, Vec<Item>)> = items
+                .into_par_iter()
+                .map_init(Scratch::default, |scratch, (k, t, p)| {
+                    let split = (few || t.len() > heavy) && self.wants(k, &d.key_box(k), &t, &p);
+                    if !split {
+                        return (false, vec![(k, t, p)]);
+                    }
+                    self.fill(k, &t, &p, scratch);
+                    let kids = k.children();
+                    let v = (0..8)
+                        .map(|i| (kids[i], scratch.t[i].clone(), scratch.p[i].clone()))
+                        .collect();
+                    (true, v)
+                })
+                .collect();
+            let changed = parts.iter().any(|p| p.0);
+            let next: Vec<Item> = parts.into_iter().flat_map(|p| p.1).collect();
             items = next;
             if !changed || round > 12 {
                 break;
@@ -358,7 +421,14 @@ impl Ctx<'_> {
         }
     }
 
-    fn dfs(&self, k: OctKey, tris: &[u32], prisms: &[u32], scratch: &mut [Scratch], out: &mut Vec<OctKey>) {
+    fn dfs(
+        &self,
+        k: OctKey,
+        tris: &[u32],
+        prisms: &[u32],
+        scratch: &mut [Scratch],
+        out: &mut Vec<OctKey>,
+    ) {
         if self.abort.load(Ordering::Relaxed) {
             return;
         }

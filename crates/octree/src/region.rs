@@ -14,10 +14,20 @@ use serde::{Deserialize, Serialize};
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum RegionShape {
-    Box { min: Vec3, max: Vec3 },
-    Sphere { center: Vec3, radius: f64 },
+    Box {
+        min: Vec3,
+        max: Vec3,
+    },
+    Sphere {
+        center: Vec3,
+        radius: f64,
+    },
     /// A finite cylinder with axis from `a` to `b` (flat end caps).
-    Cylinder { a: Vec3, b: Vec3, radius: f64 },
+    Cylinder {
+        a: Vec3,
+        b: Vec3,
+        radius: f64,
+    },
 }
 
 /// A named region where cells are at most `size`.
@@ -42,7 +52,12 @@ pub struct SizeRegion {
 impl SizeRegion {
     /// A region without grading.
     pub fn new(name: &str, shape: RegionShape, size: f64) -> SizeRegion {
-        SizeRegion { name: name.to_string(), shape, size, grow_distance: None }
+        SizeRegion {
+            name: name.to_string(),
+            shape,
+            size,
+            grow_distance: None,
+        }
     }
 
     /// The largest cell edge wanted in `b`, if the region asks for one there.
@@ -52,7 +67,9 @@ impl SizeRegion {
             return Some(self.size);
         }
         match self.grow_distance {
-            Some(g) if d < g && g > 0.0 => Some(self.size + (base_size - self.size).max(0.0) * d / g),
+            Some(g) if d < g && g > 0.0 => {
+                Some(self.size + (base_size - self.size).max(0.0) * d / g)
+            }
             _ => None,
         }
     }
@@ -61,16 +78,24 @@ impl SizeRegion {
     pub fn validate(&self) -> Result<(), String> {
         let ok = |v: Vec3| v.is_finite();
         if !(self.size.is_finite() && self.size > 0.0) {
-            return Err(format!("region `{}`: size must be positive, got {}", self.name, self.size));
+            return Err(format!(
+                "region `{}`: size must be positive, got {}",
+                self.name, self.size
+            ));
         }
         if let Some(g) = self.grow_distance {
             if !(g.is_finite() && g >= 0.0) {
-                return Err(format!("region `{}`: grow distance must be >= 0, got {g}", self.name));
+                return Err(format!(
+                    "region `{}`: grow distance must be >= 0, got {g}",
+                    self.name
+                ));
             }
         }
         let good = match &self.shape {
             RegionShape::Box { min, max } => ok(*min) && ok(*max) && min.cmplt(*max).all(),
-            RegionShape::Sphere { center, radius } => ok(*center) && radius.is_finite() && *radius > 0.0,
+            RegionShape::Sphere { center, radius } => {
+                ok(*center) && radius.is_finite() && *radius > 0.0
+            }
             RegionShape::Cylinder { a, b, radius } => {
                 ok(*a) && ok(*b) && (*b - *a).length() > 0.0 && radius.is_finite() && *radius > 0.0
             }
@@ -78,7 +103,10 @@ impl SizeRegion {
         if good {
             Ok(())
         } else {
-            Err(format!("region `{}`: degenerate or non-finite shape", self.name))
+            Err(format!(
+                "region `{}`: degenerate or non-finite shape",
+                self.name
+            ))
         }
     }
 }
@@ -88,7 +116,9 @@ impl RegionShape {
     pub fn contains(&self, p: Vec3) -> bool {
         match self {
             RegionShape::Box { min, max } => Aabb::new(*min, *max).contains_point(p),
-            RegionShape::Sphere { center, radius } => (p - *center).length_squared() <= radius * radius,
+            RegionShape::Sphere { center, radius } => {
+                (p - *center).length_squared() <= radius * radius
+            }
             RegionShape::Cylinder { a, b, radius } => cylinder_distance(p, *a, *b, *radius) <= 0.0,
         }
     }
@@ -117,7 +147,8 @@ impl RegionShape {
             RegionShape::Cylinder { a, b, radius } => {
                 let half = 0.5 * bx.diagonal();
                 let dc = cylinder_distance(bx.center(), *a, *b, *radius);
-                let lower = (dc - half).max(box_box_distance(bx, &cylinder_bounds(*a, *b, *radius)));
+                let lower =
+                    (dc - half).max(box_box_distance(bx, &cylinder_bounds(*a, *b, *radius)));
                 if lower > 0.0 {
                     (false, lower)
                 } else {
@@ -154,7 +185,11 @@ fn cylinder_distance(p: Vec3, a: Vec3, b: Vec3, r: f64) -> f64 {
 fn cylinder_bounds(a: Vec3, b: Vec3, r: f64) -> Aabb {
     let u = (b - a).normalize();
     // the end discs reach r * sqrt(1 - u_i^2) along axis i
-    let e = Vec3::new((1.0 - u.x * u.x).max(0.0).sqrt(), (1.0 - u.y * u.y).max(0.0).sqrt(), (1.0 - u.z * u.z).max(0.0).sqrt()) * r;
+    let e = Vec3::new(
+        (1.0 - u.x * u.x).max(0.0).sqrt(),
+        (1.0 - u.y * u.y).max(0.0).sqrt(),
+        (1.0 - u.z * u.z).max(0.0).sqrt(),
+    ) * r;
     Aabb::new(a.min(b) - e, a.max(b) + e)
 }
 
@@ -164,9 +199,15 @@ mod tests {
 
     #[test]
     fn sphere_relation_is_exact_distance() {
-        let s = RegionShape::Sphere { center: Vec3::ZERO, radius: 1.0 };
+        let s = RegionShape::Sphere {
+            center: Vec3::ZERO,
+            radius: 1.0,
+        };
         // exact: the box [2,3]x[0,1]x[0,1] is 2 from the centre, 1 from the sphere
-        let (inside, d) = s.relation(&Aabb::new(Vec3::new(2.0, 0.0, 0.0), Vec3::new(3.0, 1.0, 1.0)));
+        let (inside, d) = s.relation(&Aabb::new(
+            Vec3::new(2.0, 0.0, 0.0),
+            Vec3::new(3.0, 1.0, 1.0),
+        ));
         assert!(!inside);
         assert!((d - 1.0).abs() < 1e-15);
         assert!(s.relation(&Aabb::new(Vec3::splat(0.5), Vec3::splat(0.6))).0);
@@ -174,7 +215,11 @@ mod tests {
 
     #[test]
     fn cylinder_bound_never_misses_an_overlap() {
-        let c = RegionShape::Cylinder { a: Vec3::ZERO, b: Vec3::new(1.0, 1.0, 0.0), radius: 0.2 };
+        let c = RegionShape::Cylinder {
+            a: Vec3::ZERO,
+            b: Vec3::new(1.0, 1.0, 0.0),
+            radius: 0.2,
+        };
         // boxes around points of the axis must be inside
         for i in 0..=10 {
             let p = Vec3::new(0.1 * i as f64, 0.1 * i as f64, 0.0);
@@ -183,14 +228,23 @@ mod tests {
         }
         // exact: a point 1 unit past the cap along the axis is 1 away
         let far = Vec3::new(1.0, 1.0, 0.0) + Vec3::new(1.0, 1.0, 0.0).normalize();
-        assert!((cylinder_distance(far, Vec3::ZERO, Vec3::new(1.0, 1.0, 0.0), 0.2) - 1.0).abs() < 1e-12);
+        assert!(
+            (cylinder_distance(far, Vec3::ZERO, Vec3::new(1.0, 1.0, 0.0), 0.2) - 1.0).abs() < 1e-12
+        );
         let (inside, d) = c.relation(&Aabb::new(far, far).inflated(1e-3));
         assert!(!inside && d <= 1.0);
     }
 
     #[test]
     fn grading_grows_linearly_to_base_size() {
-        let mut r = SizeRegion::new("b", RegionShape::Box { min: Vec3::ZERO, max: Vec3::ONE }, 0.1);
+        let mut r = SizeRegion::new(
+            "b",
+            RegionShape::Box {
+                min: Vec3::ZERO,
+                max: Vec3::ONE,
+            },
+            0.1,
+        );
         r.grow_distance = Some(1.0);
         // box 0.5 away along x: size 0.1 + (1 - 0.1) * 0.5
         let b = Aabb::new(Vec3::new(1.5, 0.0, 0.0), Vec3::new(1.6, 0.1, 0.1));

@@ -145,15 +145,24 @@ fn check_size(what: &str, s: f64) -> Result<(), OctreeError> {
     if s.is_finite() && s > 0.0 {
         Ok(())
     } else {
-        Err(OctreeError::BadSpec(format!("{what}: size must be a positive finite length, got {s}")))
+        Err(OctreeError::BadSpec(format!(
+            "{what}: size must be a positive finite length, got {s}"
+        )))
     }
 }
 
 impl LevelPlan {
     /// Resolves `spec` against the surface's tags and the domain's base size.
-    pub fn new(domain: &Domain, surface: &Surface, spec: &RefineSpec) -> Result<LevelPlan, OctreeError> {
+    pub fn new(
+        domain: &Domain,
+        surface: &Surface,
+        spec: &RefineSpec,
+    ) -> Result<LevelPlan, OctreeError> {
         if spec.transition_layers == 0 || spec.transition_layers > MAX_TRANSITION_LAYERS {
-            return Err(OctreeError::BadLayers { got: spec.transition_layers, max: MAX_TRANSITION_LAYERS });
+            return Err(OctreeError::BadLayers {
+                got: spec.transition_layers,
+                max: MAX_TRANSITION_LAYERS,
+            });
         }
         let ntags = surface.tag_names.len();
         let mut size: Vec<Option<f64>> = vec![None; ntags];
@@ -166,10 +175,20 @@ impl LevelPlan {
             let ids: Vec<usize> = match &rule.tag {
                 TagSel::All => (0..ntags).collect(),
                 TagSel::Id(t) if (t.0 as usize) < ntags => vec![t.0 as usize],
-                TagSel::Id(t) => return Err(OctreeError::UnknownTag(format!("#{}", t.0), surface.tag_names.join(", "))),
+                TagSel::Id(t) => {
+                    return Err(OctreeError::UnknownTag(
+                        format!("#{}", t.0),
+                        surface.tag_names.join(", "),
+                    ))
+                }
                 TagSel::Name(n) => match surface.tag_names.iter().position(|x| x == n) {
                     Some(i) => vec![i],
-                    None => return Err(OctreeError::UnknownTag(n.clone(), surface.tag_names.join(", "))),
+                    None => {
+                        return Err(OctreeError::UnknownTag(
+                            n.clone(),
+                            surface.tag_names.join(", "),
+                        ))
+                    }
                 },
             };
             for i in ids {
@@ -179,13 +198,20 @@ impl LevelPlan {
         }
         if let Some(a) = spec.feature_angle_deg {
             if !(a.is_finite() && a > 0.0 && a < 180.0) {
-                return Err(OctreeError::BadSpec(format!("feature angle must be in (0, 180) degrees, got {a}")));
+                return Err(OctreeError::BadSpec(format!(
+                    "feature angle must be in (0, 180) degrees, got {a}"
+                )));
             }
         }
         let mut entries = Vec::new();
         let mut push = |request: String, s: f64| {
             let level = domain.level_for_size(s);
-            entries.push(PlannedLevel { request, size: s, level, cell_size: domain.cell_size(level) });
+            entries.push(PlannedLevel {
+                request,
+                size: s,
+                level,
+                cell_size: domain.cell_size(level),
+            });
             level
         };
         let mut tag_level = vec![0u8; ntags];
@@ -204,7 +230,10 @@ impl LevelPlan {
             Some(g) => {
                 check_size("gap finest size", g.finest_size)?;
                 if g.cells == 0 || g.cells > 1000 {
-                    return Err(OctreeError::BadSpec(format!("gap cells must be 1 to 1000, got {}", g.cells)));
+                    return Err(OctreeError::BadSpec(format!(
+                        "gap cells must be 1 to 1000, got {}",
+                        g.cells
+                    )));
                 }
                 if let Some(w) = g.max_width {
                     check_size("gap max width", w)?;
@@ -227,7 +256,14 @@ impl LevelPlan {
             .max()
             .unwrap_or(0)
             .min(MAX_DEPTH);
-        Ok(LevelPlan { entries, tag_level, tag_feature_level, gap_level, region_level, max_level })
+        Ok(LevelPlan {
+            entries,
+            tag_level,
+            tag_feature_level,
+            gap_level,
+            region_level,
+            max_level,
+        })
     }
 }
 
@@ -240,26 +276,48 @@ mod tests {
     fn sizes_become_levels() {
         let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::splat(8.0)), 8.0).unwrap();
         let mut spec = RefineSpec::default();
-        spec.surface.push(SurfaceRule { tag: TagSel::All, size: 1.0, finest_size: None });
+        spec.surface.push(SurfaceRule {
+            tag: TagSel::All,
+            size: 1.0,
+            finest_size: None,
+        });
         // 0.9 is not a power-of-two fraction of 8: the next finer level, edge 0.5
-        spec.surface.push(SurfaceRule { tag: TagSel::Name("cube".into()), size: 0.9, finest_size: Some(0.1) });
+        spec.surface.push(SurfaceRule {
+            tag: TagSel::Name("cube".into()),
+            size: 0.9,
+            finest_size: Some(0.1),
+        });
         spec.feature_angle_deg = Some(30.0);
         let p = LevelPlan::new(&d, &Surface::unit_cube(), &spec).unwrap();
         assert_eq!(p.tag_level, vec![4]); // exact: 8 / 2^4 = 0.5 <= 0.9 < 1
         assert_eq!(p.tag_feature_level, vec![Some(7)]); // exact: 8 / 2^7 = 0.0625 <= 0.1
         assert_eq!(p.max_level, 7);
-        spec.surface.push(SurfaceRule { tag: TagSel::Name("wing".into()), size: 1.0, finest_size: None });
-        assert!(matches!(LevelPlan::new(&d, &Surface::unit_cube(), &spec), Err(OctreeError::UnknownTag(..))));
+        spec.surface.push(SurfaceRule {
+            tag: TagSel::Name("wing".into()),
+            size: 1.0,
+            finest_size: None,
+        });
+        assert!(matches!(
+            LevelPlan::new(&d, &Surface::unit_cube(), &spec),
+            Err(OctreeError::UnknownTag(..))
+        ));
     }
 
     #[test]
     fn bad_settings_are_errors() {
         let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
         let s = Surface::unit_cube();
-        let mut spec = RefineSpec { transition_layers: 0, ..Default::default() };
+        let mut spec = RefineSpec {
+            transition_layers: 0,
+            ..Default::default()
+        };
         assert!(LevelPlan::new(&d, &s, &spec).is_err());
         spec.transition_layers = 1;
-        spec.surface.push(SurfaceRule { tag: TagSel::All, size: f64::NAN, finest_size: None });
+        spec.surface.push(SurfaceRule {
+            tag: TagSel::All,
+            size: f64::NAN,
+            finest_size: None,
+        });
         assert!(LevelPlan::new(&d, &s, &spec).is_err());
     }
 }

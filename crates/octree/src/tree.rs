@@ -4,14 +4,21 @@
 //! ancestor of another, and they tile the domain box exactly (volumes sum to the box volume in
 //! integer arithmetic).
 
-use crate::domain::Domain;
 use crate::balance::last_le;
+use crate::domain::Domain;
 use crate::key::{OctKey, MAX_DEPTH};
 
 /// The 26 face, edge and corner directions, faces first (in [`Octree::face_neighbours`] order).
 pub const DIRECTIONS: [[i32; 3]; 26] = {
     let mut d = [[0i32; 3]; 26];
-    let faces = [[-1, 0, 0], [1, 0, 0], [0, -1, 0], [0, 1, 0], [0, 0, -1], [0, 0, 1]];
+    let faces = [
+        [-1, 0, 0],
+        [1, 0, 0],
+        [0, -1, 0],
+        [0, 1, 0],
+        [0, 0, -1],
+        [0, 0, 1],
+    ];
     let mut i = 0;
     while i < 6 {
         d[i] = faces[i];
@@ -167,10 +174,22 @@ impl Octree {
                 return Err(format!("leaf {i} overlaps leaf {}", i + 1));
             }
         }
-        let vol: u128 = self.leaves.iter().map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32)).sum();
-        let want: u128 = self.domain.counts.iter().map(|&c| c as u128).product::<u128>() << (3 * MAX_DEPTH as u32);
+        let vol: u128 = self
+            .leaves
+            .iter()
+            .map(|k| 1u128 << (3 * (MAX_DEPTH - k.level()) as u32))
+            .sum();
+        let want: u128 = self
+            .domain
+            .counts
+            .iter()
+            .map(|&c| c as u128)
+            .product::<u128>()
+            << (3 * MAX_DEPTH as u32);
         if vol != want {
-            return Err(format!("leaf volumes sum to {vol} finest cells, the box holds {want}"));
+            return Err(format!(
+                "leaf volumes sum to {vol} finest cells, the box holds {want}"
+            ));
         }
         Ok(())
     }
