@@ -320,12 +320,15 @@ impl CellCtx<'_> {
         }
         // a smooth loop fans to the surface point nearest its centroid (on the surface, so the
         // wall interpolates it); a sharp one to the feature vertex
+        // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
+        // edge of the leaf without being one of that face's vertices (a T-junction)
+        let inner = cell.inflated(-crate::crossing::T_EPS * h);
         let apex = if feature {
-            qef_vertex(&s.planes, mass, cell)
+            qef_vertex(&s.planes, mass, &inner)
         } else {
             match self.index.closest_point(mass) {
-                Some(c) if c.distance < 0.5 * h => c.point.clamp(cell.min, cell.max),
-                _ => mass,
+                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
+                _ => mass.clamp(inner.min, inner.max),
             }
         };
         let apex_id = LOCAL | out.new_pts.len() as u32;
