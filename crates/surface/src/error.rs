@@ -73,6 +73,13 @@ pub enum SurfaceError {
         at: Position,
         value: String,
     },
+    /// More triangles than `u32` vertex ids can address (three fresh vertices a triangle).
+    #[error("{file}: {triangles} triangles exceed the supported {max}")]
+    TooLarge {
+        file: String,
+        triangles: u64,
+        max: u64,
+    },
     /// A well-formed file without a single triangle.
     #[error("{file}: no triangles")]
     NoTriangles { file: String },

@@ -90,6 +90,9 @@ pub fn parse_stl(bytes: &[u8], file_label: &str) -> Result<Surface, SurfaceError
     }
 }
 
+/// Most triangles a surface can hold: three fresh `u32` vertex ids each.
+pub const MAX_TRIANGLES: u64 = (u32::MAX / 3) as u64;
+
 /// The file stem of `label` (the label itself when it has none).
 fn stem(label: &str) -> String {
     Path::new(label)
@@ -369,6 +372,13 @@ impl<'a> AsciiParser<'a> {
                     }
                 }
             }
+        }
+        if self.surface.triangles.len() as u64 >= MAX_TRIANGLES {
+            return Err(SurfaceError::TooLarge {
+                file: self.file.to_string(),
+                triangles: MAX_TRIANGLES + 1,
+                max: MAX_TRIANGLES,
+            });
         }
         self.keyword("outer")?;
         self.keyword("loop")?;
