@@ -33,10 +33,10 @@ impl fmt::Display for Position {
 #[derive(Debug, thiserror::Error)]
 pub enum SurfaceError {
     /// The file could not be opened or read.
-    #[error("{}: cannot read: {source}", path.display())]
+    #[error("{}: cannot read: {error}", path.display())]
     Io {
         path: PathBuf,
-        source: std::io::Error,
+        error: std::io::Error,
     },
     /// The file holds no bytes (or only white space).
     #[error("{file}: empty file")]

@@ -158,7 +158,7 @@ pub fn health(surface: &Surface, repair: &RepairReport) -> HealthReport {
         }
     }
     let closed: Vec<usize> = (0..ncomp).filter(|&c| !open[c]).collect();
-    let enclosed_volume = closed.iter().map(|&c| vol[c]).sum();
+    let enclosed_volume = closed.iter().map(|&c| vol[c]).sum::<f64>() + 0.0; // no -0
 
     // edges: open, non-manifold, lengths
     let edge_len = |e: usize| {

@@ -22,9 +22,9 @@ use std::path::{Path, PathBuf};
 /// Binary files get one tag named after the file stem; ASCII files one tag per `solid` block,
 /// named after the block (the file stem when unnamed; repeated names become `name`, `name.2`, ...).
 pub fn load_stl(path: &Path) -> Result<Surface, SurfaceError> {
-    let bytes = std::fs::read(path).map_err(|source| SurfaceError::Io {
+    let bytes = std::fs::read(path).map_err(|error| SurfaceError::Io {
         path: path.to_path_buf(),
-        source,
+        error,
     })?;
     parse_stl(&bytes, &path.display().to_string())
 }
