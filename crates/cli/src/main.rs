@@ -83,6 +83,7 @@ fn check(args: &CheckArgs) -> anyhow::Result<ExitCode> {
 
 /// A number with about six significant digits.
 fn g(x: f64) -> String {
+    let x = x + 0.0; // print -0 as 0
     if x == 0.0 || (1e-3..1e6).contains(&x.abs()) {
         let s = format!("{x:.6}");
         s.trim_end_matches('0').trim_end_matches('.').to_string()
@@ -169,13 +170,15 @@ fn table(files: &[String], h: &HealthReport) -> String {
         .non_manifold_at
         .map(|p| format!(", first at {}", v(p)))
         .unwrap_or_default();
-    row(
-        "non-manifold edges",
+    let nm = if h.non_manifold_edges > 0 {
         format!(
             "{} (up to {} triangles on one){nm_at}",
             h.non_manifold_edges, h.non_manifold_max_triangles
-        ),
-    );
+        )
+    } else {
+        "0".to_string()
+    };
+    row("non-manifold edges", nm);
     let no_at = h
         .non_orientable_at
         .map(|p| format!(", first at {}", v(p)))

@@ -33,10 +33,10 @@ impl fmt::Display for Position {
 #[derive(Debug, thiserror::Error)]
 pub enum SurfaceError {
     /// The file could not be opened or read.
-    #[error("{}: cannot read: {source}", path.display())]
+    #[error("{}: cannot read: {error}", path.display())]
     Io {
         path: PathBuf,
-        source: std::io::Error,
+        error: std::io::Error,
     },
     /// The file holds no bytes (or only white space).
     #[error("{file}: empty file")]
@@ -72,6 +72,13 @@ pub enum SurfaceError {
         file: String,
         at: Position,
         value: String,
+    },
+    /// More triangles than `u32` vertex ids can address (three fresh vertices a triangle).
+    #[error("{file}: {triangles} triangles exceed the supported {max}")]
+    TooLarge {
+        file: String,
+        triangles: u64,
+        max: u64,
     },
     /// A well-formed file without a single triangle.
     #[error("{file}: no triangles")]

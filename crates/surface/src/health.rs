@@ -4,9 +4,9 @@
 //! enclosed volume of each closed one (divergence theorem: the sum of signed tetrahedra to a
 //! reference point, exact for a closed surface whatever the point), open (boundary) edges
 //! chained into loops, non-manifold edges, edge length extremes, per-tag counts, and the pairs of
-//! intersecting triangles. The pair search is a broad phase on a bounding-volume hierarchy of
-//! the triangles' boxes (parry3d's `Bvh`, binned SAH build after Wald 2007, traversed against
-//! itself so each overlapping pair of boxes comes once) and the exact narrow
+//! intersecting triangles. The pair search is a broad phase on bounding-volume hierarchies of
+//! the triangles' boxes (parry3d's `Bvh`, binned SAH build after Wald 2007, one per Morton-order
+//! chunk, so each overlapping pair of boxes comes once) and the exact narrow
 //! phase of [`crate::tritri`] under its adjacency rule (triangles sharing a vertex or an edge
 //! intersect only beyond it). Deterministic at any thread count: work is split into fixed
 //! chunks whose results are joined in order.
@@ -158,7 +158,7 @@ pub fn health(surface: &Surface, repair: &RepairReport) -> HealthReport {
         }
     }
     let closed: Vec<usize> = (0..ncomp).filter(|&c| !open[c]).collect();
-    let enclosed_volume = closed.iter().map(|&c| vol[c]).sum();
+    let enclosed_volume = closed.iter().map(|&c| vol[c]).sum::<f64>() + 0.0; // no -0
 
     // edges: open, non-manifold, lengths
     let edge_len = |e: usize| {
@@ -313,36 +313,114 @@ fn open_loops(map: &EdgeMap, open: &[u32], v: &[Vec3]) -> (usize, Option<EdgeLoo
     (count, best)
 }
 
+/// Part of the spread of Morton codes: bits of `x` (21 used) to every third bit.
+fn spread(x: u64) -> u64 {
+    let mut x = x & 0x1f_ffff;
+    x = (x | x << 32) & 0x1f_0000_0000_ffff;
+    x = (x | x << 16) & 0x1f_0000_ff00_00ff;
+    x = (x | x << 8) & 0x100f_00f0_0f00_f00f;
+    x = (x | x << 4) & 0x10c3_0c30_c30c_30c3;
+    (x | x << 2) & 0x1249_2492_4924_9249
+}
+
 /// Counts the intersecting triangle pairs and lists the first [`LISTED_PAIRS`].
+///
+/// Broad phase: the triangles are split into spatially coherent chunks along the Morton curve
+/// of their box centres (Morton 1966; common practice for parallel BVH builds), one BVH per chunk
+/// built in parallel; box pairs come from each tree against itself and from each pair of trees
+/// whose root boxes overlap. Narrow phase: [`mesh_triangles_intersect`].
 fn intersecting_pairs(surface: &Surface) -> (usize, Vec<IntersectingPair>) {
+    intersecting_pairs_chunked(surface, 1 << 16)
+}
+
+/// [`intersecting_pairs`] with chunks of at most `max_chunk` triangles.
+fn intersecting_pairs_chunked(
+    surface: &Surface,
+    max_chunk: usize,
+) -> (usize, Vec<IntersectingPair>) {
     let n = surface.triangles.len();
     let v = &surface.vertices;
-    let boxes: Vec<PAabb> = (0..n)
+    if n < 2 {
+        return (0, Vec::new());
+    }
+    let boxes: Vec<Aabb> = (0..n)
         .into_par_iter()
-        .map(|t| {
-            let b = Aabb::from_points(surface.corners(t));
-            PAabb::new(b.min, b.max)
+        .map(|t| Aabb::from_points(surface.corners(t)))
+        .collect();
+    let whole = surface.bounding_box();
+    let scale = (1u64 << 21) as f64 - 1.0;
+    let ext = whole.extent().max(Vec3::splat(f64::MIN_POSITIVE));
+    let mut order: Vec<(u64, u32)> = boxes
+        .par_iter()
+        .enumerate()
+        .map(|(t, b)| {
+            let c = ((b.center() - whole.min) / ext * scale).clamp(Vec3::ZERO, Vec3::splat(scale));
+            (
+                spread(c.x as u64) | spread(c.y as u64) << 1 | spread(c.z as u64) << 2,
+                t as u32,
+            )
         })
         .collect();
-    let bvh = Bvh::from_leaves(BvhBuildStrategy::default(), &boxes);
-    // each overlapping pair of boxes once, in the (deterministic) order of the traversal
-    let mut cand: Vec<(u32, u32)> = Vec::new();
-    let mut ws = BvhWorkspace::default();
-    bvh.traverse_bvtt_single_tree::<false>(&mut ws, &mut |a, b| cand.push((a.min(b), a.max(b))));
-    const CHUNK: usize = 1 << 15;
-    let hits: Vec<Vec<(u32, u32)>> = cand
-        .par_chunks(CHUNK)
+    order.par_sort_unstable();
+    let chunk = n.div_ceil(n.div_ceil(max_chunk.max(1)));
+    let ids: Vec<Vec<u32>> = order
+        .chunks(chunk)
+        .map(|c| c.iter().map(|e| e.1).collect())
+        .collect();
+    drop(order);
+    let trees: Vec<Bvh> = ids
+        .par_iter()
+        .map(|c| {
+            let leaves = c.iter().enumerate().map(|(k, &t)| {
+                let b = &boxes[t as usize];
+                (k, PAabb::new(b.min, b.max))
+            });
+            Bvh::from_iter(BvhBuildStrategy::default(), leaves)
+        })
+        .collect();
+    let roots: Vec<Aabb> = ids
+        .iter()
         .map(|c| {
             c.iter()
-                .copied()
-                .filter(|&(i, j)| {
-                    mesh_triangles_intersect(
-                        v,
-                        surface.triangles[i as usize],
-                        surface.triangles[j as usize],
-                    )
-                })
-                .collect()
+                .fold(Aabb::empty(), |a, &t| a.union(&boxes[t as usize]))
+        })
+        .collect();
+    let mut tasks = Vec::new();
+    for a in 0..ids.len() {
+        for b in a..ids.len() {
+            if roots[a].intersects(&roots[b]) {
+                tasks.push((a, b));
+            }
+        }
+    }
+    let test = |i: u32, j: u32, out: &mut Vec<(u32, u32)>| {
+        let (i, j) = (i.min(j), i.max(j));
+        if boxes[i as usize].intersects(&boxes[j as usize])
+            && mesh_triangles_intersect(
+                v,
+                surface.triangles[i as usize],
+                surface.triangles[j as usize],
+            )
+        {
+            out.push((i, j));
+        }
+    };
+    let hits: Vec<Vec<(u32, u32)>> = tasks
+        .par_iter()
+        .map(|&(a, b)| {
+            let mut out = Vec::new();
+            let (ia, ib) = (&ids[a], &ids[b]);
+            if a == b {
+                let mut ws = BvhWorkspace::default();
+                trees[a].traverse_bvtt_single_tree::<false>(&mut ws, &mut |x, y| {
+                    test(ia[x as usize], ia[y as usize], &mut out)
+                });
+            } else {
+                for (x, y) in trees[a].leaf_pairs(&trees[b], |p, q| p.intersects(q)) {
+                    test(ia[x as usize], ib[y as usize], &mut out);
+                }
+            }
+            out
         })
         .collect();
     let mut hits: Vec<(u32, u32)> = hits.into_iter().flatten().collect();
@@ -401,6 +479,31 @@ mod tests {
             }]
         );
         assert!(h.is_watertight());
+    }
+
+    #[test]
+    fn chunked_broad_phase_matches_all_pairs() {
+        // reference: the O(n^2) loop over all pairs with the same exact narrow phase
+        let mut s = Surface::uv_sphere(Vec3::ZERO, 1.0, 12, 24);
+        s.append(Surface::uv_sphere(Vec3::new(0.7, 0.2, 0.1), 0.8, 10, 20));
+        let r = repair(&mut s, &RepairOptions::default());
+        let n = s.triangles.len();
+        let mut all = Vec::new();
+        for i in 0..n {
+            for j in i + 1..n {
+                if mesh_triangles_intersect(&s.vertices, s.triangles[i], s.triangles[j]) {
+                    all.push((i as u32, j as u32));
+                }
+            }
+        }
+        assert!(all.len() > 10);
+        for chunk in [1 << 16, 64, 7] {
+            let (count, listed) = intersecting_pairs_chunked(&s, chunk);
+            assert_eq!(count, all.len());
+            let got: Vec<(u32, u32)> = listed.iter().map(|p| (p.a, p.b)).collect();
+            assert_eq!(got, all[..LISTED_PAIRS]);
+        }
+        assert_eq!(health(&s, &r).intersecting_pairs, all.len());
     }
 
     #[test]

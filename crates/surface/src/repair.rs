@@ -310,8 +310,8 @@ fn drop_degenerate_and_duplicates(surface: &mut Surface, r: &mut RepairReport) {
         }
     }
     let mut k = 0;
-    for t in 0..surface.triangles.len() {
-        if status[t] == 0 {
+    for (t, &st) in status.iter().enumerate() {
+        if st == 0 {
             surface.triangles[k] = surface.triangles[t];
             surface.tags[k] = surface.tags[t];
             k += 1;

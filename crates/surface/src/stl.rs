@@ -22,9 +22,9 @@ use std::path::{Path, PathBuf};
 /// Binary files get one tag named after the file stem; ASCII files one tag per `solid` block,
 /// named after the block (the file stem when unnamed; repeated names become `name`, `name.2`, ...).
 pub fn load_stl(path: &Path) -> Result<Surface, SurfaceError> {
-    let bytes = std::fs::read(path).map_err(|source| SurfaceError::Io {
+    let bytes = std::fs::read(path).map_err(|error| SurfaceError::Io {
         path: path.to_path_buf(),
-        source,
+        error,
     })?;
     parse_stl(&bytes, &path.display().to_string())
 }
@@ -89,6 +89,9 @@ pub fn parse_stl(bytes: &[u8], file_label: &str) -> Result<Surface, SurfaceError
         }),
     }
 }
+
+/// Most triangles a surface can hold: three fresh `u32` vertex ids each.
+pub const MAX_TRIANGLES: u64 = (u32::MAX / 3) as u64;
 
 /// The file stem of `label` (the label itself when it has none).
 fn stem(label: &str) -> String {
@@ -369,6 +372,13 @@ impl<'a> AsciiParser<'a> {
                     }
                 }
             }
+        }
+        if self.surface.triangles.len() as u64 >= MAX_TRIANGLES {
+            return Err(SurfaceError::TooLarge {
+                file: self.file.to_string(),
+                triangles: MAX_TRIANGLES + 1,
+                max: MAX_TRIANGLES,
+            });
         }
         self.keyword("outer")?;
         self.keyword("loop")?;

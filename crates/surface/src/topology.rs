@@ -3,7 +3,8 @@
 //!
 //! Common practice (half-edge bookkeeping by sorting): every triangle `t` has three half-edges
 //! `3t + k` running from corner `k` to corner `k + 1 (mod 3)`. Sorting the half-edges by their
-//! undirected vertex pair groups each edge's incidences (CSR). An edge with one incidence is open
+//! undirected vertex pair (a counting sort by the lower vertex, then tiny bucket sorts) groups
+//! each edge's incidences (CSR). An edge with one incidence is open
 //! (boundary), with two it is manifold and links two neighbours, with more it is non-manifold.
 //! Components are the classes of triangles linked across manifold edges, numbered in order of
 //! their lowest triangle. Deterministic at any thread count (the sort keys are unique).
@@ -40,26 +41,70 @@ pub fn half_edge_vertices(triangles: &[[u32; 3]], h: u32) -> (u32, u32) {
 }
 
 impl EdgeMap {
-    /// Builds the map of `triangles` (parallel sort).
+    /// Builds the map of `triangles`: a counting sort of the half-edges by their lower vertex,
+    /// then a sort of each (small) bucket by (upper vertex, half-edge), in parallel.
     pub fn new(triangles: &[[u32; 3]]) -> EdgeMap {
-        let mut entries: Vec<(u64, u32)> = triangles
+        let nv = triangles
             .par_iter()
-            .enumerate()
-            .flat_map_iter(|(t, tri)| {
-                (0..3).map(move |k| {
-                    let (a, b) = (tri[k], tri[(k + 1) % 3]);
-                    let (lo, hi) = if a < b { (a, b) } else { (b, a) };
-                    (((lo as u64) << 32) | hi as u64, (3 * t + k) as u32)
-                })
-            })
-            .collect();
-        entries.par_sort_unstable();
+            .flatten()
+            .copied()
+            .max()
+            .map_or(0, |m| m as usize + 1);
+        let lo_hi = |tri: &[u32; 3], k: usize| {
+            let (a, b) = (tri[k], tri[(k + 1) % 3]);
+            if a < b {
+                (a, b)
+            } else {
+                (b, a)
+            }
+        };
+        let mut start = vec![0u32; nv + 1];
+        for tri in triangles {
+            for k in 0..3 {
+                start[lo_hi(tri, k).0 as usize + 1] += 1;
+            }
+        }
+        for v in 0..nv {
+            start[v + 1] += start[v];
+        }
+        let mut fill = start.clone();
+        let mut entries = vec![(0u32, 0u32); 3 * triangles.len()];
+        for (t, tri) in triangles.iter().enumerate() {
+            for k in 0..3 {
+                let (lo, hi) = lo_hi(tri, k);
+                entries[fill[lo as usize] as usize] = (hi, (3 * t + k) as u32);
+                fill[lo as usize] += 1;
+            }
+        }
+        drop(fill);
+        // sort the buckets, split into vertex ranges of disjoint slices
+        let pieces = nv.clamp(1, 64);
+        let mut slices = Vec::with_capacity(pieces);
+        let mut rest: &mut [(u32, u32)] = &mut entries;
+        let mut taken = 0usize;
+        for p in 0..pieces {
+            let (v0, v1) = (p * nv / pieces, (p + 1) * nv / pieces);
+            let end = start[v1] as usize;
+            let (head, tail) = rest.split_at_mut(end - taken);
+            slices.push((v0, v1, head));
+            rest = tail;
+            taken = end;
+        }
+        slices.into_par_iter().for_each(|(v0, v1, sl)| {
+            let base = start[v0] as usize;
+            for v in v0..v1 {
+                sl[start[v] as usize - base..start[v + 1] as usize - base].sort_unstable();
+            }
+        });
         let mut keys = Vec::with_capacity(entries.len() / 2 + 1);
         let mut offsets = Vec::with_capacity(entries.len() / 2 + 2);
-        for (i, e) in entries.iter().enumerate() {
-            if keys.last() != Some(&e.0) {
-                keys.push(e.0);
-                offsets.push(i as u32);
+        for v in 0..nv {
+            let bucket = start[v] as usize..start[v + 1] as usize;
+            for i in bucket.clone() {
+                if i == bucket.start || entries[i - 1].0 != entries[i].0 {
+                    keys.push(((v as u64) << 32) | entries[i].0 as u64);
+                    offsets.push(i as u32);
+                }
             }
         }
         offsets.push(entries.len() as u32);

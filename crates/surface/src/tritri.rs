@@ -67,9 +67,9 @@ fn mesh_intersect(v: &[Vec3], t1: [u32; 3], t2: [u32; 3], want: bool) -> Option<
     let pos = |i: u32| v[i as usize];
     let mut s = [(0usize, 0usize); 3];
     let mut ns = 0;
-    for i in 0..3 {
-        for j in 0..3 {
-            if t1[i] == t2[j] && ns < 3 {
+    for (i, &a) in t1.iter().enumerate() {
+        for (j, &b) in t2.iter().enumerate() {
+            if a == b && ns < 3 {
                 s[ns] = (i, j);
                 ns += 1;
             }
