@@ -14,4 +14,12 @@ if ! .venv/bin/python -c "import vtkmodules, sys; sys.exit(0 if vtkmodules.__ver
 fi
 out="${1:-$(mktemp -d)}"
 cargo run --quiet --locked -p octocut-writers --example readback_cases -- "$out" >/dev/null
+# real meshes: both demo scenarios (the drone's dirty export; the rooftop unit cut by the floor)
+cargo build --quiet --locked -p octocut-cli
+bin=target/debug/octocut
+"$bin" mesh demo-geometry/drone.toml --out "$out/drone" --quiet
+.venv/bin/python .ci/expected-from-report.py "$out/drone" body arms hubs skids pod \
+    inflow outflow side_windward side_leeward bottom top
+"$bin" mesh demo-geometry/rooftop.toml --out "$out/rooftop" --quiet
+.venv/bin/python .ci/expected-from-report.py "$out/rooftop"
 .venv/bin/python tests/vtk_readback.py "$out"/*/

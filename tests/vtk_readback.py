@@ -65,6 +65,7 @@ def mass(poly):
 def polyhedron_volume(grid, i):
     cell = grid.GetCell(i)
     pts = vtkPoints()
+    pts.SetDataTypeToDouble()  # the default (float32) loses the 1e-9 agreement
     ids = vtkIdList()
     grid.GetCellPoints(i, ids)
     local = {}

@@ -27,12 +27,11 @@ fn werr(path: &Path, e: impl std::fmt::Display) -> MeshError {
     }
 }
 
-/// The cell-data arrays written to `mesh.vtu`: volume and the per-cell quality measures
-/// (level, cut and region are written by the VTU writer itself).
+/// The extra cell-data arrays written to `mesh.vtu`: the per-cell quality measures (level,
+/// cut, region and volume are written by the VTU writer itself; a repeated name makes VTK's
+/// reader fail).
 pub fn cell_arrays(out: &Outcome) -> Vec<CellArray> {
-    let mut a = vec![CellArray::f64("volume", out.cell_volumes())];
-    a.extend(CellArray::from_quality(&out.quality.per_cell));
-    a
+    CellArray::from_quality(&out.quality.per_cell)
 }
 
 /// Writes the outputs `spec.output.formats` asks for into `dir`; returns the paths written.

@@ -72,13 +72,6 @@ pub struct Outcome {
     pub bodies: octocut_surface::Aabb,
 }
 
-impl Outcome {
-    /// Volume of every cell (divergence theorem over its faces).
-    pub fn cell_volumes(&self) -> Vec<f64> {
-        octocut_volmesh::geometry::MeshGeometry::new(&self.mesh).cell_volume
-    }
-}
-
 impl Mesher {
     /// Loads, repairs and indexes the surface files of `spec`.
     pub fn load(spec: &CaseSpec) -> Result<Mesher, MeshError> {

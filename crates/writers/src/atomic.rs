@@ -20,6 +20,8 @@ pub enum WriteError {
         expected: usize,
         found: usize,
     },
+    #[error("cell array `{0}` is given twice (or repeats a built-in array); VTK readers reject repeated names")]
+    DuplicateArray(String),
 }
 
 /// Writes `path` through `f` atomically (temporary `.<name>.tmp-<pid>` in the same directory,

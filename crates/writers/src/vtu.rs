@@ -228,7 +228,12 @@ pub fn write_vtu(
 ) -> Result<(), WriteError> {
     check_writable(mesh)?;
     let nc = mesh.n_cells();
+    let mut names = vec!["level", "cut", "region", "volume"];
     for a in cell_data {
+        if names.contains(&a.name.as_str()) {
+            return Err(WriteError::DuplicateArray(a.name.clone()));
+        }
+        names.push(&a.name);
         if a.values.len() != nc {
             return Err(WriteError::CellArrayLength {
                 name: a.name.clone(),
@@ -327,6 +332,20 @@ pub fn write_vtu(
 mod tests {
     use super::*;
     use octocut_volmesh::testmesh;
+
+    #[test]
+    fn repeated_array_names_are_refused() {
+        // VTK 9.5's XML reader crashed on a file holding two `volume` cell arrays
+        let m = testmesh::block(1, 1.0);
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("mesh.vtu");
+        let twice = [CellArray::f64("volume", vec![1.0])];
+        assert!(matches!(
+            write_vtu(&m, &twice, &p, Encoding::Appended),
+            Err(WriteError::DuplicateArray(_))
+        ));
+        assert!(!p.exists());
+    }
 
     #[test]
     fn hexahedra_are_detected() {
