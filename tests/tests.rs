@@ -1,1 +1,2 @@
 //! End-to-end and reference checks: one integration binary, one module per topic.
+mod volmesh;

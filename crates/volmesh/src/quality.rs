@@ -353,7 +353,12 @@ fn stats(
         .count() as u64;
     let mut order: Vec<usize> = (0..n).collect();
     let bad = |v: f64| if threshold.above { v } else { -v };
-    order.sort_by(|&a, &b| bad(values[b]).total_cmp(&bad(values[a])).then(a.cmp(&b)));
+    let worse = |a: &usize, b: &usize| bad(values[*b]).total_cmp(&bad(values[*a])).then(a.cmp(b));
+    if n > N_WORST {
+        order.select_nth_unstable_by(N_WORST, worse);
+        order.truncate(N_WORST);
+    }
+    order.sort_by(worse);
     let worst = order
         .iter()
         .take(N_WORST)
