@@ -4,3 +4,4 @@ mod pipeline_e2e;
 mod surface_intake;
 mod cutcell_reference;
 mod octree_invariants;
+mod volmesh;

@@ -255,7 +255,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
             inner.iter().map(|m| m.0).collect(),
             &deg_bins,
             nonorth_t.clone(),
-            |i, v| face_place(i, v),
+            &face_place,
         ),
         boundary_non_orthogonality: stats(
             "boundary_non_orthogonality",
@@ -275,7 +275,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                          (intersection offset of half the centroid distance)"
                     .into(),
             },
-            |i, v| face_place(i, v),
+            &face_place,
         ),
         volume_ratio: stats(
             "volume_ratio",
@@ -287,7 +287,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                 source: "exact: 8 is the largest ratio of two uncut cells of a 2:1 balanced octree"
                     .into(),
             },
-            |i, v| face_place(i, v),
+            &face_place,
         ),
         cut_fraction: stats(
             "cut_fraction",
@@ -300,7 +300,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                          cell are merged or flagged"
                     .into(),
             },
-            |i, v| cell_place(i, v),
+            &cell_place,
         ),
         aspect_ratio: stats(
             "aspect_ratio",
@@ -311,7 +311,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                 above: true,
                 source: "our choice".into(),
             },
-            |i, v| cell_place(i, v),
+            &cell_place,
         ),
         per_cell: CellQuality {
             non_orthogonality: cells.iter().map(|c| c.0).collect(),
@@ -353,7 +353,12 @@ fn stats(
         .count() as u64;
     let mut order: Vec<usize> = (0..n).collect();
     let bad = |v: f64| if threshold.above { v } else { -v };
-    order.sort_by(|&a, &b| bad(values[b]).total_cmp(&bad(values[a])).then(a.cmp(&b)));
+    let worse = |a: &usize, b: &usize| bad(values[*b]).total_cmp(&bad(values[*a])).then(a.cmp(b));
+    if n > N_WORST {
+        order.select_nth_unstable_by(N_WORST, worse);
+        order.truncate(N_WORST);
+    }
+    order.sort_by(worse);
     let worst = order
         .iter()
         .take(N_WORST)

@@ -370,25 +370,46 @@ impl VolumeMesh {
     }
 
     fn check_duplicate_faces(&self, out: &mut Vec<Problem>) {
-        // sort faces by their sorted vertex list; equal neighbours in that order are duplicates
-        let keys: Vec<Vec<u32>> = (0..self.n_faces())
+        // sort faces by a hash of their sorted vertex set; equal hashes are compared exactly
+        let sorted = |f: usize, buf: &mut Vec<u32>| {
+            buf.clear();
+            buf.extend_from_slice(self.face(f));
+            buf.sort_unstable();
+        };
+        let mut keys: Vec<(u64, u32)> = (0..self.n_faces())
             .into_par_iter()
-            .map(|f| {
-                let mut k = self.face(f).to_vec();
-                k.sort_unstable();
-                k
+            .map_init(Vec::new, |buf, f| {
+                sorted(f, buf);
+                // FNV-1a over the sorted ids (any fixed hash works: collisions are re-checked)
+                let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+                for &v in buf.iter() {
+                    h = (h ^ v as u64).wrapping_mul(0x0100_0000_01b3);
+                }
+                (h, f as u32)
             })
             .collect();
-        let mut order: Vec<u32> = (0..self.n_faces() as u32).collect();
-        order
-            .par_sort_unstable_by(|&a, &b| keys[a as usize].cmp(&keys[b as usize]).then(a.cmp(&b)));
+        keys.par_sort_unstable();
         let mut found = Vec::new();
-        for w in order.windows(2) {
-            if keys[w[0] as usize] == keys[w[1] as usize] {
-                // w[0] is the lowest id of its group only at the group's start: report each
-                // later face against its predecessor in id order
-                found.push((w[1], w[0]));
+        let (mut x, mut y) = (Vec::new(), Vec::new());
+        let mut i = 0;
+        while i < keys.len() {
+            let mut j = i + 1;
+            while j < keys.len() && keys[j].0 == keys[i].0 {
+                j += 1;
             }
+            // within a group of equal hashes (ascending face ids), report each face against
+            // the lowest earlier face with the same vertex set
+            for k in i + 1..j {
+                sorted(keys[k].1 as usize, &mut x);
+                for &(_, other) in &keys[i..k] {
+                    sorted(other as usize, &mut y);
+                    if x == y {
+                        found.push((keys[k].1, other));
+                        break;
+                    }
+                }
+            }
+            i = j;
         }
         found.sort_unstable();
         for (face, other) in found {
@@ -399,19 +420,22 @@ impl VolumeMesh {
 
     fn check_duplicate_points(&self, out: &mut Vec<Problem>) {
         let pts = &self.points;
-        let mut order: Vec<u32> = (0..pts.len() as u32).collect();
-        let cmp = |a: &u32, b: &u32| {
-            let (p, q) = (pts[*a as usize], pts[*b as usize]);
-            p.x.total_cmp(&q.x)
-                .then(p.y.total_cmp(&q.y))
-                .then(p.z.total_cmp(&q.z))
+        // exact coordinates as integers in f64 total order (IEEE 754 bit trick)
+        let key = |x: f64| {
+            // + 0.0 turns -0.0 into 0.0: equal coordinates, equal keys
+            let b = (x + 0.0).to_bits() as i64;
+            (b ^ ((((b >> 63) as u64) >> 1) as i64)) as u64 ^ (1 << 63)
         };
-        order.par_sort_unstable_by(|a, b| cmp(a, b).then(a.cmp(b)));
+        let mut order: Vec<([u64; 3], u32)> = (0..pts.len())
+            .into_par_iter()
+            .map(|i| ([key(pts[i].x), key(pts[i].y), key(pts[i].z)], i as u32))
+            .collect();
+        order.par_sort_unstable();
         let mut found = Vec::new();
         let mut first = 0;
         for i in 1..order.len() {
-            if cmp(&order[i], &order[first]).is_eq() {
-                found.push((order[i], order[first]));
+            if order[i].0 == order[first].0 {
+                found.push((order[i].1, order[first].1));
             } else {
                 first = i;
             }
@@ -495,20 +519,19 @@ impl VolumeMesh {
     /// Geometric T-junction check: points lying strictly inside an edge of some face.
     fn check_vertices_on_edges(&self, out: &mut Vec<Problem>) {
         let pts = &self.points;
-        // unique undirected edges, each with the lowest face using it
-        let mut edges: Vec<(u64, u32)> = (0..self.n_faces())
+        // unique undirected edges
+        let mut edges: Vec<u64> = (0..self.n_faces())
             .into_par_iter()
             .flat_map_iter(|f| {
                 let vs = self.face(f);
                 (0..vs.len()).map(move |i| {
                     let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
-                    let (lo, hi) = (a.min(b), a.max(b));
-                    ((lo as u64) << 32 | hi as u64, f as u32)
+                    (a.min(b) as u64) << 32 | a.max(b) as u64
                 })
             })
             .collect();
         edges.par_sort_unstable();
-        edges.dedup_by_key(|e| e.0);
+        edges.dedup();
         if edges.is_empty() || pts.is_empty() {
             return;
         }
@@ -516,7 +539,7 @@ impl VolumeMesh {
         // points sit at cell centres
         let mut lens: Vec<f64> = edges
             .par_iter()
-            .map(|&(k, _)| (pts[(k >> 32) as usize] - pts[k as u32 as usize]).length())
+            .map(|&k| (pts[(k >> 32) as usize] - pts[k as u32 as usize]).length())
             .collect();
         let mid = lens.len() / 2;
         let (_, med, _) = lens.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
@@ -542,7 +565,7 @@ impl VolumeMesh {
         let bin_keys: Vec<u64> = binned.iter().map(|b| b.0).collect();
         let found: Vec<Vec<Problem>> = edges
             .par_iter()
-            .map(|&(k, face)| {
+            .map(|&k| {
                 let (a, b) = ((k >> 32) as u32, k as u32);
                 let (pa, pb) = (pts[a as usize], pts[b as usize]);
                 let d = pb - pa;
@@ -575,7 +598,7 @@ impl VolumeMesh {
                                 if (p - (pa + t * d)).length_squared() <= tol * tol {
                                     probs.push(Problem::VertexOnEdge {
                                         vertex: v,
-                                        face,
+                                        face: u32::MAX,
                                         edge: [a, b],
                                         at: p,
                                     });
@@ -591,7 +614,41 @@ impl VolumeMesh {
                 probs
             })
             .collect();
-        out.extend(found.into_iter().flatten());
+        let mut found: Vec<Problem> = found.into_iter().flatten().collect();
+        if found.is_empty() {
+            return;
+        }
+        // name, for each reported edge, the lowest face using it
+        let mut want: Vec<u64> = found
+            .iter()
+            .filter_map(|p| match p {
+                Problem::VertexOnEdge { edge: [a, b], .. } => Some((*a as u64) << 32 | *b as u64),
+                _ => None,
+            })
+            .collect();
+        want.sort_unstable();
+        want.dedup();
+        let mut face_of = vec![u32::MAX; want.len()];
+        for f in 0..self.n_faces() {
+            let vs = self.face(f);
+            for i in 0..vs.len() {
+                let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
+                let k = (a.min(b) as u64) << 32 | a.max(b) as u64;
+                if let Ok(j) = want.binary_search(&k) {
+                    face_of[j] = face_of[j].min(f as u32);
+                }
+            }
+        }
+        for p in found.iter_mut() {
+            if let Problem::VertexOnEdge {
+                edge: [a, b], face, ..
+            } = p
+            {
+                let k = (*a as u64) << 32 | *b as u64;
+                *face = face_of[want.binary_search(&k).unwrap()];
+            }
+        }
+        out.extend(found);
     }
 }
 
@@ -742,7 +799,8 @@ mod tests {
             .any(|p| matches!(p, Problem::DuplicatePoint { point: 12, .. })));
         assert!(kinds(&r).contains(&"unmatched_edge"));
 
-        let r = broken::t_junction().validate();
+        let m_t = broken::t_junction();
+        let r = m_t.validate();
         let k = kinds(&r);
         assert!(
             k.contains(&"unmatched_edge") && k.contains(&"vertex_on_edge"),
@@ -751,11 +809,45 @@ mod tests {
         // closure still holds: a T-junction is invisible to the area sum
         assert!(!k.contains(&"open_cell"));
         for p in &r.problems {
-            if let Problem::VertexOnEdge { at, .. } = p {
+            if let Problem::VertexOnEdge { at, face, edge, .. } = p {
+                assert!(m_t.face(*face as usize).contains(&edge[0]));
                 // the hanging vertices are edge midpoints of the refined cell [0,1]^3
                 assert!(at.to_array().iter().any(|c| (c - 0.5).abs() < 1e-12));
             }
         }
+
+        let mut m = testmesh::block(2, 1.0);
+        // a copy of the last boundary face appended to the last patch, vertex order rotated
+        let f = m.n_faces() - 1;
+        let mut vs = m.face(f).to_vec();
+        vs.rotate_left(1);
+        m.face_vertices.extend(vs);
+        m.face_offsets.push(m.face_vertices.len() as u32);
+        m.owner.push(m.owner[f]);
+        m.patches.last_mut().unwrap().count += 1;
+        let r = m.validate();
+        let got: Vec<_> = r
+            .problems
+            .iter()
+            .filter_map(|p| match p {
+                Problem::DuplicateFace { face, other, .. } => Some((*face, *other)),
+                _ => None,
+            })
+            .collect();
+        assert_eq!(got, vec![(f as u32 + 1, f as u32)]);
+
+        let mut m = testmesh::block(1, 1.0);
+        m.points[0] = Vec3::new(-0.0, 0.0, 0.0);
+        m.points.push(Vec3::ZERO);
+        let r = m.validate();
+        assert!(r.problems.iter().any(|p| matches!(
+            p,
+            Problem::DuplicatePoint {
+                point: 8,
+                other: 0,
+                ..
+            }
+        )));
 
         let r = broken::open_cell().validate();
         let k = kinds(&r);
