@@ -26,3 +26,15 @@ fn sphere_in_a_box_fluid_volume() {
     eprintln!("fluid {v} want {want} relative error vs body volume {rel:.3e}");
     assert!(rel < 5e-3, "fluid {v} want {want}");
 }
+
+#[test]
+fn demo_case_files_parse_and_plan() {
+    // the committed demo cases are valid case files whose per-tag sizes name real solids
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-geometry");
+    for case in ["drone.toml", "rooftop.toml"] {
+        let spec = CaseSpec::from_file(&root.join(case)).expect("parses");
+        let m = Mesher::load(&spec).expect("loads");
+        let plan = m.plan(&spec).expect("plans");
+        assert!(plan.estimated_cells > 10_000 && plan.estimated_cells < spec.limits.max_cells, "{case}: {plan:?}");
+    }
+}

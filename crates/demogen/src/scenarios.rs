@@ -607,7 +607,7 @@ mod case_tests {
     use super::*;
 
     #[test]
-    fn case_files_are_valid_toml_naming_the_solids() {
+    fn case_files_are_valid_toml_sizing_known_solids() {
         for (name, bytes) in demo_files() {
             if !name.ends_with(".toml") {
                 continue;
@@ -620,11 +620,9 @@ mod case_tests {
                 rooftop()
             };
             let solids: Vec<&str> = s.parts.iter().map(|(n, _)| n.as_str()).collect();
-            assert_eq!(
-                sizes.keys().map(|k| k.as_str()).collect::<Vec<_>>().len(),
-                solids.len()
-            );
-            assert!(solids.iter().all(|n| sizes.contains_key(*n)), "{name}");
+            // every per-tag size names a solid of the scenario
+            assert!(!sizes.is_empty(), "{name}");
+            assert!(sizes.keys().all(|k| solids.contains(&k.as_str())), "{name}");
             assert!(v["domain"]["base_size"].as_float().unwrap() > 0.0);
         }
     }
