@@ -365,9 +365,10 @@ cells = 3
 finest_size = 0.005
 
 [domain]
-# floor = true puts the box floor at the bodies' lowest point (the roof cuts the housing there)
-around = {{ flow = "+x", upstream = 2.0, downstream = 5.0, sides = 2.0, above = 2.0, floor = true }}
-base_size = 0.32
+# an explicit box whose floor is the roof (z = 0): it cuts the housing, whose base lies below;
+# 32 x 19 x 13 base cells of 0.3 m, so the box is used as given
+box = [-3.0, -2.85, 0.0, 6.6, 2.85, 3.9]
+base_size = 0.3
 
 [fluid]
 side = "outside"

@@ -144,7 +144,15 @@ impl Mesher {
     fn domain(&self, spec: &CaseSpec) -> Result<Domain, MeshError> {
         let bodies = self.index.surface().bounding_box();
         let requested = spec.requested_box(&bodies);
-        Domain::new(requested, spec.domain.base_size).map_err(|e| MeshError::Config(e.to_string()))
+        let mut d = Domain::new(requested, spec.domain.base_size)
+            .map_err(|e| MeshError::Config(e.to_string()))?;
+        if let crate::spec::BoxPlacement::Around(a) = &spec.domain.placement {
+            if a.floor {
+                // the floor stays at the bodies' lowest point: grow the box upward only
+                d.origin.z = requested.min.z;
+            }
+        }
+        Ok(d)
     }
 
     /// The refinement settings `spec` asks for.
