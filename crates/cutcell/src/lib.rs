@@ -351,7 +351,8 @@ pub fn cut_cells_with_regions(
     };
     let multi: Vec<u8> = (0..leaves.len() as u32)
         .into_par_iter()
-        .map(|l| {
+        .with_min_len(256)
+        .map_init(Vec::new, |tris, l| {
             if status[l as usize] == SOLID || !touched[l as usize] {
                 return 0;
             }
@@ -372,8 +373,7 @@ pub fn cut_cells_with_regions(
                 let inner =
                     octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
                 let s = index.surface();
-                let mut tris = Vec::new();
-                index.triangles_in_box(&b, &mut tris);
+                index.triangles_in_box(&b, tris);
                 if tris.iter().any(|&t| {
                     s.corners(t as usize)
                         .iter()
