@@ -1,26 +1,64 @@
 //! Fluid/solid classification of mesh vertices by the generalized winding number.
 //!
 //! Follows Jacobson, Kavan, Sorkine-Hornung (2013): a point is inside when its winding number is
-//! at least 1/2. The winding number is evaluated only at corners of leaves the surface touches
-//! (exact triangle-box test on the slightly inflated leaf box); every connected run of untouched
-//! leaves (face adjacency) takes one class, read from an already classified corner of the run or
-//! from one winding-number evaluation at its first leaf's centre. Invariant: for a closed
-//! surface every vertex gets its exact class, since the winding number is constant on each
-//! connected surface-free region.
+//! at least 1/2. On a closed, consistently oriented surface (every edge used as often in one
+//! direction as in the other) the winding number is an integer that changes by exactly the
+//! signed count of surface crossings along any segment, so the vertices of the queried edges
+//! (all edges of leaves the surface touches) take their winding number from one evaluation per
+//! connected set of edges plus the signed crossings (exact, [`crate::crossing::EdgeHits`]). A
+//! set whose crossings disagree around some cycle (a vertex on the surface, a defect), or any
+//! vertex of a surface that is not closed, is evaluated directly, in one batch. Every connected
+//! run of untouched leaves (face adjacency) takes one class, read from an already classified
+//! corner of the run or from one winding-number evaluation at its first leaf's centre.
+//! Invariant: for a closed surface every vertex gets its exact class, since the winding number
+//! is constant on each connected surface-free region.
 
+use crate::crossing::EdgeHits;
 use crate::topology::Topology;
 use crate::util::UnionFind;
 use octocut_octree::Octree;
-use octocut_surface::SurfaceIndex;
+use octocut_surface::{Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
 
 pub(crate) struct Classes {
     /// Fluid flag per mesh vertex (point id).
     pub fluid: Vec<bool>,
-    /// Leaves whose (inflated) box the surface touches.
-    pub touched: Vec<bool>,
     /// Winding-number evaluations spent.
     pub evaluations: usize,
+}
+
+/// Leaves whose (slightly inflated) box the surface touches (exact triangle-box test).
+pub(crate) fn touched_leaves(tree: &Octree, index: &SurfaceIndex) -> Vec<bool> {
+    let d = &tree.domain;
+    tree.leaves()
+        .par_iter()
+        .with_min_len(256)
+        .map(|&k| {
+            let b = d.key_box(k);
+            index.any_triangle_in_box(&b.inflated(1e-7 * d.cell_size(k.level())))
+        })
+        .collect()
+}
+
+/// True when every undirected edge of `s` is used equally often in each direction (the
+/// oriented boundary of the triangle chain is zero), by vertex index.
+pub(crate) fn is_closed(s: &Surface) -> bool {
+    let mut e: Vec<u64> = Vec::with_capacity(3 * s.triangles.len());
+    for t in &s.triangles {
+        for i in 0..3 {
+            let (a, b) = (t[i], t[(i + 1) % 3]);
+            if a != b {
+                // low bit: direction, so equal keys sort together
+                let (lo, hi, dir) = if a < b { (a, b, 0) } else { (b, a, 1) };
+                e.push((lo as u64) << 33 | (hi as u64) << 1 | dir);
+            }
+        }
+    }
+    e.par_sort_unstable();
+    e.chunk_by(|x, y| x >> 1 == y >> 1).all(|g| {
+        let fwd = g.iter().filter(|&&k| k & 1 == 0).count();
+        2 * fwd == g.len()
+    })
 }
 
 pub(crate) fn classify(
@@ -28,35 +66,108 @@ pub(crate) fn classify(
     index: &SurfaceIndex,
     topo: &Topology,
     fluid_inside: bool,
+    touched: &[bool],
+    eh: &EdgeHits,
 ) -> Classes {
     let d = &tree.domain;
     let leaves = tree.leaves();
-    let touched: Vec<bool> = leaves
-        .par_iter()
-        .map(|&k| {
-            let b = d.key_box(k);
-            index.any_triangle_in_box(&b.inflated(1e-7 * d.cell_size(k.level())))
-        })
-        .collect();
     let np = topo.grid.len();
-    let mut known = vec![false; np];
-    for (l, c) in topo.corners.iter().enumerate() {
-        if touched[l] {
-            for &p in c {
-                known[p as usize] = true;
+    let gpos = |p: u32| d.point(topo.grid[p as usize]);
+    // adjacency of the queried edges, with the winding-number change along each
+    let mut deg = vec![0u32; np + 1];
+    for &k in &eh.keys {
+        deg[(k >> 32) as usize + 1] += 1;
+        deg[(k as u32) as usize + 1] += 1;
+    }
+    for i in 0..np {
+        deg[i + 1] += deg[i];
+    }
+    let mut fill = deg.clone();
+    let mut adj = vec![(0u32, 0i32); deg[np] as usize];
+    for (e, &k) in eh.keys.iter().enumerate() {
+        let (p, q) = ((k >> 32) as usize, (k as u32) as usize);
+        adj[fill[p] as usize] = (q as u32, eh.delta[e]);
+        fill[p] += 1;
+        adj[fill[q] as usize] = (p as u32, -eh.delta[e]);
+        fill[q] += 1;
+    }
+    drop(fill);
+    let closed = is_closed(index.surface());
+    const NONE: u32 = u32::MAX;
+    // component of each graph vertex, and its winding number relative to the component's root
+    let mut comp = vec![NONE; np];
+    let mut rel = vec![0i32; np];
+    let mut roots: Vec<u32> = Vec::new();
+    let mut bad: Vec<bool> = Vec::new();
+    let mut stack: Vec<u32> = Vec::new();
+    for r in 0..np as u32 {
+        if comp[r as usize] != NONE || deg[r as usize] == deg[r as usize + 1] {
+            continue;
+        }
+        let c = roots.len() as u32;
+        roots.push(r);
+        bad.push(!closed);
+        comp[r as usize] = c;
+        stack.push(r);
+        while let Some(p) = stack.pop() {
+            for &(q, dl) in &adj[deg[p as usize] as usize..deg[p as usize + 1] as usize] {
+                let w = rel[p as usize] + dl;
+                if comp[q as usize] == NONE {
+                    comp[q as usize] = c;
+                    rel[q as usize] = w;
+                    stack.push(q);
+                } else if rel[q as usize] != w {
+                    bad[c as usize] = true;
+                }
             }
         }
     }
-    let eval: Vec<u32> = (0..np as u32).filter(|&p| known[p as usize]).collect();
-    let vals: Vec<bool> = eval
-        .par_iter()
-        .map(|&p| index.is_inside(d.point(topo.grid[p as usize])))
+    let mut evaluations = 0;
+    // one winding number per consistent component, rounded to its integer value
+    let seeds: Vec<u32> = roots
+        .iter()
+        .zip(&bad)
+        .filter(|x| !*x.1)
+        .map(|x| *x.0)
         .collect();
-    let mut fluid = vec![false; np];
-    for (&p, &inside) in eval.iter().zip(&vals) {
-        fluid[p as usize] = inside == fluid_inside;
+    let sw = index.winding_numbers(&seeds.iter().map(|&p| gpos(p)).collect::<Vec<_>>());
+    evaluations += seeds.len();
+    let mut base = vec![0i32; roots.len()];
+    {
+        let mut si = 0;
+        for c in 0..roots.len() {
+            if bad[c] {
+                continue;
+            }
+            let w = sw[si];
+            si += 1;
+            let r = w.round();
+            if (w - r).abs() > 0.25 || r.abs() > 1e6 {
+                bad[c] = true;
+            } else {
+                base[c] = r as i32;
+            }
+        }
     }
-    let mut evaluations = eval.len();
+    let mut fluid = vec![false; np];
+    let mut known = vec![false; np];
+    let direct: Vec<u32> = (0..np as u32)
+        .filter(|&p| comp[p as usize] != NONE && bad[comp[p as usize] as usize])
+        .collect();
+    let dw = index.winding_numbers(&direct.iter().map(|&p| gpos(p)).collect::<Vec<_>>());
+    evaluations += direct.len();
+    for (&p, &w) in direct.iter().zip(&dw) {
+        fluid[p as usize] = (w >= 0.5) == fluid_inside;
+    }
+    for p in 0..np {
+        let c = comp[p];
+        if c != NONE {
+            known[p] = true;
+            if !bad[c as usize] {
+                fluid[p] = (base[c as usize] + rel[p] >= 1) == fluid_inside;
+            }
+        }
+    }
     // runs of untouched leaves
     let mut uf = UnionFind::new(leaves.len());
     for f in &topo.faces {
@@ -80,16 +191,17 @@ pub(crate) fn classify(
             }
         }
     }
-    let roots: Vec<u32> = (0..leaves.len() as u32)
+    let run_roots: Vec<u32> = (0..leaves.len() as u32)
         .filter(|&l| !touched[l as usize] && uf.find(l) == l && run_class[l as usize] == UNKNOWN)
         .collect();
-    let rv: Vec<bool> = roots
-        .par_iter()
-        .map(|&l| index.is_inside(d.key_box(leaves[l as usize]).center()) == fluid_inside)
+    let centres: Vec<Vec3> = run_roots
+        .iter()
+        .map(|&l| d.key_box(leaves[l as usize]).center())
         .collect();
-    evaluations += roots.len();
-    for (&l, &f) in roots.iter().zip(&rv) {
-        run_class[l as usize] = f as u8;
+    let rv = index.winding_numbers(&centres);
+    evaluations += run_roots.len();
+    for (&l, &w) in run_roots.iter().zip(&rv) {
+        run_class[l as usize] = ((w >= 0.5) == fluid_inside) as u8;
     }
     for l in 0..leaves.len() as u32 {
         if touched[l as usize] {
@@ -103,9 +215,25 @@ pub(crate) fn classify(
             }
         }
     }
-    Classes {
-        fluid,
-        touched,
-        evaluations,
+    Classes { fluid, evaluations }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn closedness_by_edge_balance() {
+        // exact: the unit cube's 12 triangles use each edge once each way
+        let mut s = Surface::unit_cube();
+        assert!(is_closed(&s));
+        s.triangles[0].swap(1, 2);
+        assert!(!is_closed(&s));
+        s.triangles.pop();
+        s.tags.pop();
+        let mut t = Surface::unit_cube();
+        t.triangles.pop();
+        t.tags.pop();
+        assert!(!is_closed(&t));
     }
 }

@@ -1,13 +1,16 @@
 //! Where a grid edge between a fluid and a solid vertex crosses the surface.
 //!
-//! The crossing is the true intersection of the edge with the surface (Moller-Trumbore segment
-//! hits, duplicates at shared triangle edges merged by near-equal parameter). With exactly one
+//! The crossing is the true intersection of the edge with the surface (exact crossings of
+//! [`SurfaceIndex::segment_crossings`], which merges hits on shared edges and vertices; hits of
+//! coincident sheets at the same parameter count once here). With exactly one
 //! distinct hit it is taken; otherwise (an edge through a hole, or crossed several times) the
 //! class change is located by bisection on the winding-number class (Jacobson et al. 2013) and
 //! snapped to the nearest hit if there is one. Invariant: the parameter is clamped into
 //! `[T_EPS, 1 - T_EPS]`, so a crossing never coincides with a grid vertex.
 
+use octocut_surface::crossing::segment_crossing;
 use octocut_surface::{SegmentHit, SurfaceIndex, Vec3};
+use rayon::prelude::*;
 
 /// Relative margin keeping crossings strictly inside their edge.
 pub const T_EPS: f64 = 1e-4;
@@ -18,20 +21,6 @@ pub(crate) struct Crossing {
     /// Unit normal of the surface triangle crossed (zero if unknown).
     pub normal: Vec3,
     pub triangle: u32,
-}
-
-/// Distinct hits of segment `a`-`b` into `hits` (sorted by `t`, near-equal `t` merged).
-pub(crate) fn distinct_hits(index: &SurfaceIndex, a: Vec3, b: Vec3, hits: &mut Vec<SegmentHit>) {
-    index.segment_hits(a, b, hits);
-    let mut w = 0;
-    for r in 0..hits.len() {
-        if w > 0 && hits[r].t - hits[w - 1].t <= 1e-9 {
-            continue;
-        }
-        hits[w] = hits[r];
-        w += 1;
-    }
-    hits.truncate(w);
 }
 
 /// The crossing on edge `a`-`b` whose end classes differ (`fluid_a` is the class of `a`), given
@@ -85,6 +74,85 @@ pub(crate) fn edge_crossing(
     }
 }
 
+/// Surface crossings of a set of elementary edges, keyed by the edges' point ids.
+pub(crate) struct EdgeHits {
+    /// Sorted keys `lo << 32 | hi` of the queried edges.
+    pub keys: Vec<u64>,
+    /// CSR offsets into `hits` per edge.
+    pub off: Vec<u32>,
+    /// Distinct crossings per edge, sorted by `t` (from the `lo` end).
+    pub hits: Vec<SegmentHit>,
+    /// Signed crossing count from `lo` to `hi`: +1 per crossing from the front of a triangle
+    /// to its back (the change of the winding number along the edge on a closed surface).
+    pub delta: Vec<i32>,
+}
+
+impl EdgeHits {
+    /// Queries every edge in `keys` (any order, duplicates allowed).
+    pub fn query(
+        index: &SurfaceIndex,
+        pos: &(dyn Fn(u32) -> Vec3 + Sync),
+        mut keys: Vec<u64>,
+    ) -> EdgeHits {
+        keys.par_sort_unstable();
+        keys.dedup();
+        let s = index.surface();
+        let parts: Vec<(Vec<u32>, Vec<SegmentHit>, Vec<i32>)> = keys
+            .par_chunks(1024)
+            .map_init(Vec::new, |buf, ks| {
+                let mut n = Vec::with_capacity(ks.len());
+                let mut hits = Vec::new();
+                let mut delta = Vec::with_capacity(ks.len());
+                for &k in ks {
+                    let (p, q) = ((k >> 32) as u32, k as u32);
+                    let (a, b) = (pos(p), pos(q));
+                    index.segment_crossings(a, b, buf);
+                    let before = hits.len();
+                    let mut d = 0i32;
+                    for h in buf.iter() {
+                        if let Some(c) = segment_crossing(a, b, &s.corners(h.triangle as usize)) {
+                            d += c.direction as i32;
+                        }
+                        // coincident sheets (a doubled facet) cross at the very same place
+                        if hits.len() > before {
+                            let last: &SegmentHit = &hits[hits.len() - 1];
+                            if last.t == h.t {
+                                continue;
+                            }
+                        }
+                        hits.push(*h);
+                    }
+                    n.push((hits.len() - before) as u32);
+                    delta.push(d);
+                }
+                (n, hits, delta)
+            })
+            .collect();
+        let mut off = Vec::with_capacity(keys.len() + 1);
+        off.push(0u32);
+        let mut hits = Vec::with_capacity(parts.iter().map(|p| p.1.len()).sum());
+        let mut delta = Vec::with_capacity(keys.len());
+        for (n, h, d) in parts {
+            for c in n {
+                off.push(off.last().unwrap() + c);
+            }
+            hits.extend(h);
+            delta.extend(d);
+        }
+        EdgeHits {
+            keys,
+            off,
+            hits,
+            delta,
+        }
+    }
+
+    #[inline]
+    pub fn of(&self, e: usize) -> &[SegmentHit] {
+        &self.hits[self.off[e] as usize..self.off[e + 1] as usize]
+    }
+}
+
 /// Crossings of every elementary edge the clipping may need, keyed by the edge's point ids.
 pub(crate) struct EdgeTable {
     /// Sorted keys `lo << 32 | hi` of the queried edges.
@@ -103,35 +171,31 @@ pub(crate) fn edge_key(p: u32, q: u32) -> u64 {
 }
 
 impl EdgeTable {
-    /// Queries every edge in `keys` (any order, duplicates allowed).
+    /// The crossing of every edge of `eh` whose end classes differ.
     pub fn build(
         index: &SurfaceIndex,
         pos: &(dyn Fn(u32) -> Vec3 + Sync),
         fluid: &[bool],
         fluid_inside: bool,
-        mut keys: Vec<u64>,
+        eh: EdgeHits,
     ) -> EdgeTable {
-        use rayon::prelude::*;
-        keys.par_sort_unstable();
-        keys.dedup();
-        let res: Vec<(u8, Option<Crossing>)> = keys
-            .par_iter()
-            .map_init(Vec::new, |hits, &k| {
+        let res: Vec<Option<Crossing>> = (0..eh.keys.len())
+            .into_par_iter()
+            .with_min_len(512)
+            .map(|e| {
+                let k = eh.keys[e];
                 let (p, q) = ((k >> 32) as u32, k as u32);
-                let (a, b) = (pos(p), pos(q));
-                distinct_hits(index, a, b, hits);
-                let n = hits.len().min(255) as u8;
                 let fa = fluid[p as usize];
-                let c = (fa != fluid[q as usize])
-                    .then(|| edge_crossing(index, a, b, fa, fluid_inside, hits));
-                (n, c)
+                (fa != fluid[q as usize])
+                    .then(|| edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e)))
             })
             .collect();
-        let mut hits = Vec::with_capacity(keys.len());
-        let mut cross = Vec::with_capacity(keys.len());
+        let hits = (0..eh.keys.len())
+            .map(|e| (eh.off[e + 1] - eh.off[e]).min(255) as u8)
+            .collect();
+        let mut cross = Vec::with_capacity(eh.keys.len());
         let mut crossings = Vec::new();
-        for (n, c) in res {
-            hits.push(n);
+        for c in res {
             match c {
                 Some(c) => {
                     cross.push(crossings.len() as u32);
@@ -141,7 +205,7 @@ impl EdgeTable {
             }
         }
         EdgeTable {
-            keys,
+            keys: eh.keys,
             hits,
             cross,
             crossings,

@@ -40,7 +40,7 @@ mod util;
 
 use assemble::{assemble, AssembleInput, RawFaces, BOUNDARY};
 use clip::ClipCtx;
-use crossing::{edge_key, EdgeTable};
+use crossing::{edge_key, EdgeHits, EdgeTable};
 use merge::{merge_small, MergeInput};
 use octocut_octree::Octree;
 use octocut_surface::{SurfaceIndex, Vec3};
@@ -223,12 +223,31 @@ pub fn cut_cells_with_regions(
     };
 
     let topo = Topology::build(tree);
-    let cls = classify::classify(tree, index, &topo, fluid_inside);
+    let touched = classify::touched_leaves(tree, index);
+    let n_grid = topo.grid.len() as u32;
+    let gpos = |p: u32| domain.point(topo.grid[p as usize]);
+    // edges to query: all edges of faces bounding a touched leaf
+    let face_keys = |f: u32, need: bool| {
+        let pts = topo.face(f);
+        let n = if need { pts.len() } else { 0 };
+        (0..n).map(move |i| edge_key(pts[i], pts[(i + 1) % n]))
+    };
+    let touches = |f: u32| {
+        let face = topo.faces[f as usize];
+        touched[face.e as usize] || (!face.is_boundary() && touched[face.n as usize])
+    };
+    let keys: Vec<u64> = (0..topo.faces.len() as u32)
+        .into_par_iter()
+        .flat_map_iter(|f| face_keys(f, touches(f)))
+        .collect();
+    let mut eh = EdgeHits::query(index, &gpos, keys);
+    let cls = classify::classify(tree, index, &topo, fluid_inside, &touched, &eh);
     report.winding_evaluations = cls.evaluations;
     let fluid = &cls.fluid;
     // leaf status from the classes of all vertices on its boundary
     let face_mix: Vec<u8> = (0..topo.faces.len() as u32)
         .into_par_iter()
+        .with_min_len(1024)
         .map(|f| {
             let mut m = 0u8;
             for &p in topo.face(f) {
@@ -260,22 +279,17 @@ pub fn cut_cells_with_regions(
     report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
 
-    // edges to query: all edges of faces that are mixed or bound a touched leaf
-    let n_grid = topo.grid.len() as u32;
-    let keys: Vec<u64> = (0..topo.faces.len() as u32)
+    // a mixed face away from every touched leaf (rare: classes decided at a grazing surface)
+    let extra: Vec<u64> = (0..topo.faces.len() as u32)
         .into_par_iter()
-        .flat_map_iter(|f| {
-            let face = topo.faces[f as usize];
-            let need = face_mix[f as usize] == 3
-                || cls.touched[face.e as usize]
-                || (!face.is_boundary() && cls.touched[face.n as usize]);
-            let pts = topo.face(f);
-            let n = if need { pts.len() } else { 0 };
-            (0..n).map(move |i| edge_key(pts[i], pts[(i + 1) % n]))
-        })
+        .flat_map_iter(|f| face_keys(f, face_mix[f as usize] == 3 && !touches(f)))
         .collect();
-    let gpos = |p: u32| domain.point(topo.grid[p as usize]);
-    let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, keys);
+    if !extra.is_empty() {
+        let mut all = std::mem::take(&mut eh.keys);
+        all.extend(extra);
+        eh = EdgeHits::query(index, &gpos, all);
+    }
+    let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
     if pierce_base >= LOCAL as u64 / 2 {
         return Err(CutError::TooManyPoints(pierce_base));
@@ -322,7 +336,6 @@ pub fn cut_cells_with_regions(
             out
         })
         .collect();
-
     // warnings: edges crossed more than once, leaves with a surface inside but uniform classes
     let warn = |l: u32, reason: &str, report: &mut CutReport| {
         report.warnings_total += 1;
@@ -338,8 +351,9 @@ pub fn cut_cells_with_regions(
     };
     let multi: Vec<u8> = (0..leaves.len() as u32)
         .into_par_iter()
-        .map(|l| {
-            if status[l as usize] == SOLID || !cls.touched[l as usize] {
+        .with_min_len(256)
+        .map_init(Vec::new, |tris, l| {
+            if status[l as usize] == SOLID || !touched[l as usize] {
                 return 0;
             }
             for &f in topo.faces_of(l) {
@@ -359,8 +373,7 @@ pub fn cut_cells_with_regions(
                 let inner =
                     octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
                 let s = index.surface();
-                let mut tris = Vec::new();
-                index.triangles_in_box(&b, &mut tris);
+                index.triangles_in_box(&b, tris);
                 if tris.iter().any(|&t| {
                     s.corners(t as usize)
                         .iter()
@@ -392,7 +405,6 @@ pub fn cut_cells_with_regions(
             warn(l, r, &mut report);
         }
     }
-
     // cells: uniform fluid leaves one each, cut leaves their pieces, in leaf order
     let mut leaf_cell = vec![u32::MAX; leaves.len()];
     let mut cell_leaf: Vec<u32> = Vec::new();
@@ -509,7 +521,6 @@ pub fn cut_cells_with_regions(
     if points.len() as u64 >= u32::MAX as u64 / 2 {
         return Err(CutError::TooManyPoints(points.len() as u64));
     }
-
     // fluid region selection
     let mut alive = vec![true; n_raw];
     if let FluidSide::Point(p) = opts.fluid {

@@ -1,73 +1,27 @@
-//! Test support (not part of the stable API): octree refinement towards a surface with a naive
-//! 2:1 balance, shape generators and an independent mesh check.
+//! Test support (not part of the stable API): octree refinement towards a surface (through the
+//! octree stage), shape generators and an independent mesh check.
 //!
-//! The balance repeats passes refining any leaf that touches (by face, edge or corner) a leaf
-//! two or more levels finer, until none does (the 2:1 condition of Sundar, Sampath, Biros 2008,
-//! by brute force). The check proves each cell closed (outward area vectors sum to zero),
+//! The check proves each cell closed (outward area vectors sum to zero),
 //! positively sized (divergence theorem) and every directed edge of a cell matched by its
 //! reverse in the same cell (so the mesh has no T-junction).
 
-use octocut_octree::{Domain, OctKey, Octree};
+use octocut_octree::{refine, Domain, Octree, RefineSpec, SurfaceRule, TagSel};
 use octocut_surface::{Surface, SurfaceIndex, TagId, Vec3};
 use octocut_volmesh::VolumeMesh;
 use std::collections::HashMap;
 
-/// Leaves overlapping the surface refined to `level`, then 2:1 balanced.
+/// Leaves crossed by the surface refined to `level` and 2:1 balanced over faces, edges and
+/// corners, by the octree stage ([`octocut_octree::refine`] with one surface rule for all tags).
 pub fn refined_tree(domain: Domain, index: &SurfaceIndex, level: u8) -> Octree {
-    let mut out = Vec::new();
-    let mut stack: Vec<OctKey> = domain.base_keys().into_iter().rev().collect();
-    while let Some(k) = stack.pop() {
-        let b = domain.key_box(k);
-        if k.level() < level && index.any_triangle_in_box(&b.inflated(1e-9 * b.extent().x)) {
-            stack.extend(k.children().into_iter().rev());
-        } else {
-            out.push(k);
-        }
-    }
-    balance(Octree::from_sorted_leaves(domain, out))
-}
-
-/// Naive 2:1 balance over faces, edges and corners.
-pub fn balance(mut tree: Octree) -> Octree {
-    let mut nb = Vec::new();
-    loop {
-        let leaves = tree.leaves();
-        let mut refine = vec![false; leaves.len()];
-        let mut any = false;
-        for l in 0..leaves.len() {
-            'dirs: for dx in -1..=1 {
-                for dy in -1..=1 {
-                    for dz in -1..=1 {
-                        if dx == 0 && dy == 0 && dz == 0 {
-                            continue;
-                        }
-                        tree.neighbours(l as u32, [dx, dy, dz], &mut nb);
-                        if nb
-                            .iter()
-                            .any(|&n| leaves[n as usize].level() > leaves[l].level() + 1)
-                        {
-                            refine[l] = true;
-                            any = true;
-                            break 'dirs;
-                        }
-                    }
-                }
-            }
-        }
-        if !any {
-            return tree;
-        }
-        let d = tree.domain;
-        let mut out = Vec::with_capacity(leaves.len() + 8);
-        for (l, &k) in leaves.iter().enumerate() {
-            if refine[l] {
-                out.extend(k.children());
-            } else {
-                out.push(k);
-            }
-        }
-        tree = Octree::from_sorted_leaves(d, out);
-    }
+    let mut spec = RefineSpec::default();
+    spec.surface.push(SurfaceRule {
+        tag: TagSel::All,
+        size: domain.cell_size(level),
+        finest_size: None,
+    });
+    refine(&domain, index, &spec)
+        .expect("refinement of a test surface")
+        .tree
 }
 
 fn from_grid(vertices: Vec<Vec3>, triangles: Vec<[u32; 3]>, name: &str) -> Surface {

@@ -118,7 +118,7 @@ impl Topology {
                             continue;
                         };
                         let before = pts.len();
-                        face_polygon(&map, k, d, &mut pts);
+                        face_polygon(&map, k, &corners[l], d, &mut pts);
                         faces.push(EFace {
                             e: l as u32,
                             n,
@@ -177,7 +177,7 @@ impl Topology {
 }
 
 /// Appends the polygon of leaf `k`'s face in direction `d`, counter-clockwise seen from outside.
-fn face_polygon(map: &FxMap<u128, u32>, k: OctKey, d: u8, out: &mut Vec<u32>) {
+fn face_polygon(map: &FxMap<u128, u32>, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u32>) {
     let axis = (d / 2) as usize;
     let positive = d % 2 == 1;
     let a = k.anchor();
@@ -198,20 +198,34 @@ fn face_polygon(map: &FxMap<u128, u32>, k: OctKey, d: u8, out: &mut Vec<u32>) {
         g[v] += offs[i].1;
         g
     };
+    // point id of a face corner: the leaf corner with the same offsets
+    let id = |g: [u32; 3]| {
+        let bit = |ax: usize| ((g[ax] != a[ax]) as usize) << ax;
+        ids[bit(0) | bit(1) | bit(2)]
+    };
     for i in 0..4 {
-        push_edge(map, corner(i), corner((i + 1) % 4), e, out);
+        let p = corner(i);
+        push_edge(map, p, id(p), corner((i + 1) % 4), e, out);
     }
 }
 
-/// Pushes `p` and every mesh vertex strictly between `p` and `q` (edge of `len` units), in order.
-fn push_edge(map: &FxMap<u128, u32>, p: [u32; 3], q: [u32; 3], len: u32, out: &mut Vec<u32>) {
+/// Pushes `p` (point id `pid`) and every mesh vertex strictly between `p` and `q` (edge of `len`
+/// units), in order.
+fn push_edge(
+    map: &FxMap<u128, u32>,
+    p: [u32; 3],
+    pid: u32,
+    q: [u32; 3],
+    len: u32,
+    out: &mut Vec<u32>,
+) {
     if len >= 2 {
         let m = [(p[0] + q[0]) / 2, (p[1] + q[1]) / 2, (p[2] + q[2]) / 2];
-        if map.contains_key(&grid_key(m)) {
-            push_edge(map, p, m, len / 2, out);
-            push_edge(map, m, q, len / 2, out);
+        if let Some(&mid) = map.get(&grid_key(m)) {
+            push_edge(map, p, pid, m, len / 2, out);
+            push_edge(map, m, mid, q, len / 2, out);
             return;
         }
     }
-    out.push(map[&grid_key(p)]);
+    out.push(pid);
 }
