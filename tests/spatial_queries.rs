@@ -6,7 +6,7 @@ use octocut_surface::index::closest_point_on_triangle;
 use octocut_surface::index::segment_triangle;
 use octocut_surface::tribox::triangle_box_overlap;
 use octocut_surface::{
-    Aabb, IndexOptions, SegmentHit, Surface, SurfaceIndex, SurfacePoint, TagId, Vec3,
+    Aabb, IndexOptions, SegmentHit, Surface, SurfaceIndex, SurfacePoint, Vec3,
 };
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -16,74 +16,15 @@ use std::f64::consts::PI;
 
 /// Latitude-longitude sphere, closed, welded, outward oriented: `2 m (n - 1)` triangles.
 fn uv_sphere(center: Vec3, r: f64, n: usize, m: usize) -> Surface {
-    let mut v = vec![center + Vec3::new(0.0, 0.0, r)];
-    for i in 1..n {
-        let th = PI * i as f64 / n as f64;
-        for j in 0..m {
-            let ph = 2.0 * PI * j as f64 / m as f64;
-            v.push(center + r * Vec3::new(th.sin() * ph.cos(), th.sin() * ph.sin(), th.cos()));
-        }
-    }
-    v.push(center - Vec3::new(0.0, 0.0, r));
-    let ring = |i: usize, j: usize| (1 + (i - 1) * m + j % m) as u32;
-    let south = (v.len() - 1) as u32;
-    let mut t = Vec::new();
-    for j in 0..m {
-        t.push([0, ring(1, j), ring(1, j + 1)]);
-        t.push([south, ring(n - 1, j + 1), ring(n - 1, j)]);
-    }
-    for i in 1..n - 1 {
-        for j in 0..m {
-            let (a, b, c, d) = (
-                ring(i, j),
-                ring(i, j + 1),
-                ring(i + 1, j),
-                ring(i + 1, j + 1),
-            );
-            t.push([a, c, d]);
-            t.push([a, d, b]);
-        }
-    }
-    let k = t.len();
-    let s = Surface {
-        vertices: v,
-        triangles: t,
-        tags: vec![TagId(0); k],
-        tag_names: vec!["s".into()],
-    };
+    let s = octocut_surface::shapes::uv_sphere(center, r, m as u32, n as u32, "s");
     assert!(s.enclosed_volume() > 0.0, "outward orientation");
     s
 }
 
 /// Torus around the z axis, closed, outward: `2 n m` triangles.
 fn torus(big: f64, small: f64, n: usize, m: usize) -> Surface {
-    let mut v = Vec::new();
-    for i in 0..n {
-        let u = 2.0 * PI * i as f64 / n as f64;
-        for j in 0..m {
-            let w = 2.0 * PI * j as f64 / m as f64;
-            let rr = big + small * w.cos();
-            v.push(Vec3::new(rr * u.cos(), rr * u.sin(), small * w.sin()));
-        }
-    }
-    let id = |i: usize, j: usize| ((i % n) * m + j % m) as u32;
-    let mut t = Vec::new();
-    for i in 0..n {
-        for j in 0..m {
-            t.push([id(i, j), id(i + 1, j), id(i + 1, j + 1)]);
-            t.push([id(i, j), id(i + 1, j + 1), id(i, j + 1)]);
-        }
-    }
-    let k = t.len();
-    let mut s = Surface {
-        vertices: v,
-        triangles: t,
-        tags: vec![TagId(0); k],
-        tag_names: vec!["t".into()],
-    };
-    if s.enclosed_volume() < 0.0 {
-        s.triangles.iter_mut().for_each(|t| t.swap(1, 2));
-    }
+    let s = octocut_surface::shapes::torus(Vec3::ZERO, big, small, n as u32, m as u32, "t");
+    assert!(s.enclosed_volume() > 0.0, "outward orientation");
     s
 }
 
