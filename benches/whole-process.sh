@@ -4,7 +4,7 @@
 # giving about 2M and 8M cells. Prints cells, wall seconds, cells/s, peak RSS and bytes per cell.
 #
 #   benches/whole-process.sh            (uses $CARGO_TARGET_DIR or ./target)
-#   SIZES="0.01 0.005" benches/whole-process.sh
+#   SIZES="0.01 0.005" benches/whole-process.sh   (other sizes; NO_BUILD=1 skips the build)
 #
 # Needs GNU time at /usr/bin/time (`apt-get install -y time`) and jq.
 set -euo pipefail
@@ -17,7 +17,7 @@ BASE=${BASE:-1.25}
 # chosen with --dry-run for ~2M and ~8M cells
 SIZES=${SIZES:-"0.005 0.0025"}
 
-(cd "$ROOT" && cargo build --release -q -p octocut-cli -p octocut-surface --example make_body)
+[ -n "${NO_BUILD:-}" ] || (cd "$ROOT" && cargo build --release -q -p octocut-cli -p octocut-surface --example make_body)
 BIN=$TARGET/release/octocut
 "$TARGET/release/examples/make_body" "$WORK/body.stl" sphere
 
