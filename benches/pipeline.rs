@@ -8,7 +8,9 @@
 //! `cargo bench --bench pipeline -- --warm-up-time 1 --measurement-time 3`
 //! (`PIPELINE_BENCH_STEPS=2` runs only the two smaller sizes.)
 
-use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, SamplingMode, Throughput};
+use criterion::{
+    criterion_group, criterion_main, BenchmarkId, Criterion, SamplingMode, Throughput,
+};
 use octocut::pipeline::Mesher;
 use octocut::spec::{CaseSpec, FluidSpec};
 use octocut::stages::Hooks;
@@ -43,7 +45,9 @@ fn bench(c: &mut Criterion) {
     for &h in &SURFACE_SIZES[..steps] {
         let spec = CaseSpec::quick(Vec::new(), BOX, BASE, h, FluidSpec::Outside);
         let t0 = Instant::now();
-        let out = mesher.mesh(&spec, &hooks).expect("the bench case meshes and validates");
+        let out = mesher
+            .mesh(&spec, &hooks)
+            .expect("the bench case meshes and validates");
         let cells = out.report.cells.total;
         eprintln!(
             "pipeline bench: surface size {h}: {} leaves, {cells} cells ({} cut), {} faces, {} triangles; first run {:.2} s; stages: {}",

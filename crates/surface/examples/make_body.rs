@@ -31,6 +31,9 @@ fn main() -> ExitCode {
         eprintln!("make_body: cannot write {path}: {e}");
         return ExitCode::from(1);
     }
-    eprintln!("make_body: wrote {path}: {kind}, {} triangles", s.triangles.len());
+    eprintln!(
+        "make_body: wrote {path}: {kind}, {} triangles",
+        s.triangles.len()
+    );
     ExitCode::SUCCESS
 }
