@@ -1,7 +1,7 @@
 //! Whole library pipeline throughput: `Mesher::mesh` (refine + balance, cut cells and assembly,
 //! validation, quality) on a ~100k-triangle UV sphere in a box, at three surface sizes that
-//! halve each time, so the cell count grows about four times a step (about 30k, 120k and 470k
-//! fluid cells from 59k, 233k and 911k leaves; the leaves inside the body are dropped).
+//! halve each time, so the cell count grows about four times a step (33.6k, 123k and 483k
+//! fluid cells from 59k, 233k and 928k leaves; the leaves inside the body are dropped).
 //! The surface is repaired and indexed once outside the timing; no file is written.
 //! Throughput is in cells of the finished mesh (counted by a first untimed run).
 //!
