@@ -14,29 +14,7 @@ use std::time::Duration;
 
 /// A UV sphere with `2 n (2 n - 1)` triangles... about `4 n^2`.
 fn uv_sphere(n: usize, r: f64) -> Surface {
-    let m = 2 * n;
-    let p = |i: usize, j: usize| {
-        let th = std::f64::consts::PI * i as f64 / n as f64;
-        let ph = 2.0 * std::f64::consts::PI * j as f64 / m as f64;
-        Vec3::new(
-            r * th.sin() * ph.cos(),
-            r * th.sin() * ph.sin(),
-            r * th.cos(),
-        )
-    };
-    let mut tris = Vec::new();
-    for i in 0..n {
-        for j in 0..m {
-            let (a, b, c, d) = (p(i, j), p(i + 1, j), p(i + 1, j + 1), p(i, j + 1));
-            if i > 0 {
-                tris.push([a, b, d]);
-            }
-            if i + 1 < n {
-                tris.push([b, c, d]);
-            }
-        }
-    }
-    Surface::from_soup(&tris, "sphere")
+    octocut_surface::shapes::uv_sphere(Vec3::ZERO, r, 2 * n as u32, n as u32, "sphere")
 }
 
 fn setup(level: u32, radius: f64) -> (Domain, SurfaceIndex, RefineSpec) {

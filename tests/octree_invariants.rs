@@ -14,25 +14,7 @@ use rand_chacha::ChaCha8Rng;
 // ---------- generators ----------
 
 fn uv_sphere(n: usize, c: Vec3, r: f64, tag: &str) -> Surface {
-    let m = 2 * n;
-    let p = |i: usize, j: usize| {
-        let th = std::f64::consts::PI * i as f64 / n as f64;
-        let ph = 2.0 * std::f64::consts::PI * j as f64 / m as f64;
-        c + r * Vec3::new(th.sin() * ph.cos(), th.sin() * ph.sin(), th.cos())
-    };
-    let mut tris = Vec::new();
-    for i in 0..n {
-        for j in 0..m {
-            let (a, b, cc, d) = (p(i, j), p(i + 1, j), p(i + 1, j + 1), p(i, j + 1));
-            if i > 0 {
-                tris.push([a, b, d]);
-            }
-            if i + 1 < n {
-                tris.push([b, cc, d]);
-            }
-        }
-    }
-    Surface::from_soup(&tris, tag)
+    octocut_surface::shapes::uv_sphere(c, r, 2 * n as u32, n as u32, tag)
 }
 
 /// The closed box `[lo, hi]` as 12 outward triangles.
