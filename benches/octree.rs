@@ -101,5 +101,11 @@ fn bench_neighbours(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, bench_refine, bench_balance, bench_growth, bench_neighbours);
+criterion_group!(
+    benches,
+    bench_refine,
+    bench_balance,
+    bench_growth,
+    bench_neighbours
+);
 criterion_main!(benches);

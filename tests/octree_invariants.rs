@@ -664,12 +664,23 @@ fn spec_round_trips_through_json_and_defaults_fill_in() {
     spec.surface.push(surf_rule(TagSel::All, 0.5));
     spec.regions.push(SizeRegion {
         name: "pipe".into(),
-        shape: RegionShape::Cylinder { a: Vec3::ZERO, b: Vec3::X, radius: 0.2 },
+        shape: RegionShape::Cylinder {
+            a: Vec3::ZERO,
+            b: Vec3::X,
+            radius: 0.2,
+        },
         size: 0.05,
         grow_distance: Some(1.0),
     });
-    spec.gap = Some(GapSpec { cells: 3, finest_size: 0.001, max_width: None });
+    spec.gap = Some(GapSpec {
+        cells: 3,
+        finest_size: 0.001,
+        max_width: None,
+    });
     let j = serde_json::to_string(&spec).unwrap();
     assert_eq!(serde_json::from_str::<RefineSpec>(&j).unwrap(), spec);
-    assert_eq!(serde_json::from_str::<RefineSpec>("{}").unwrap(), RefineSpec::default());
+    assert_eq!(
+        serde_json::from_str::<RefineSpec>("{}").unwrap(),
+        RefineSpec::default()
+    );
 }

@@ -6,7 +6,12 @@ use octocut::stages::Hooks;
 use octocut_surface::{shapes, RepairOptions, Vec3};
 
 /// Meshes `surface` in the box `b` and returns (fluid volume, box volume - polyhedron volume).
-fn fluid_volume(surface: octocut_surface::Surface, b: [f64; 6], base: f64, size: f64) -> (f64, f64) {
+fn fluid_volume(
+    surface: octocut_surface::Surface,
+    b: [f64; 6],
+    base: f64,
+    size: f64,
+) -> (f64, f64) {
     let body = surface.enclosed_volume();
     let m = Mesher::from_surface(surface, &RepairOptions::default());
     let spec = CaseSpec::quick(vec![], b, base, size, FluidSpec::Outside);
@@ -35,6 +40,9 @@ fn demo_case_files_parse_and_plan() {
         let spec = CaseSpec::from_file(&root.join(case)).expect("parses");
         let m = Mesher::load(&spec).expect("loads");
         let plan = m.plan(&spec).expect("plans");
-        assert!(plan.estimated_cells > 10_000 && plan.estimated_cells < spec.limits.max_cells, "{case}: {plan:?}");
+        assert!(
+            plan.estimated_cells > 10_000 && plan.estimated_cells < spec.limits.max_cells,
+            "{case}: {plan:?}"
+        );
     }
 }

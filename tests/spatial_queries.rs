@@ -5,9 +5,7 @@
 use octocut_surface::index::closest_point_on_triangle;
 use octocut_surface::index::segment_triangle;
 use octocut_surface::tribox::triangle_box_overlap;
-use octocut_surface::{
-    Aabb, IndexOptions, SegmentHit, Surface, SurfaceIndex, SurfacePoint, Vec3,
-};
+use octocut_surface::{Aabb, IndexOptions, SegmentHit, Surface, SurfaceIndex, SurfacePoint, Vec3};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use std::f64::consts::PI;

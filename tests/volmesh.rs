@@ -17,8 +17,13 @@ fn cell_volumes_and_centroids_match_parry_convex_hulls() {
         assert!(m.validate().is_valid());
         let g = MeshGeometry::new(m);
         for c in 0..m.n_cells() {
-            let mut ids: Vec<u32> =
-                g.cell_faces.of(c).iter().flat_map(|&f| m.face(f as usize)).copied().collect();
+            let mut ids: Vec<u32> = g
+                .cell_faces
+                .of(c)
+                .iter()
+                .flat_map(|&f| m.face(f as usize))
+                .copied()
+                .collect();
             ids.sort_unstable();
             ids.dedup();
             let pts: Vec<_> = ids.iter().map(|&v| m.points[v as usize]).collect();
@@ -27,7 +32,11 @@ fn cell_volumes_and_centroids_match_parry_convex_hulls() {
             let mp = hull.mass_properties(1.0);
             let v = mp.mass();
             // parry3d: mass of a unit-density convex polyhedron = its volume
-            assert!((g.cell_volume[c] - v).abs() <= 1e-12 * v, "cell {c}: {} vs {v}", g.cell_volume[c]);
+            assert!(
+                (g.cell_volume[c] - v).abs() <= 1e-12 * v,
+                "cell {c}: {} vs {v}",
+                g.cell_volume[c]
+            );
             let d = (g.cell_centroid[c] - mp.local_com).length();
             assert!(d <= 1e-12 * v.cbrt(), "cell {c}: centroid off by {d}");
             checked += 1;

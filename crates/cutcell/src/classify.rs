@@ -13,10 +13,10 @@
 //! Invariant: for a closed surface every vertex gets its exact class, since the winding number
 //! is constant on each connected surface-free region.
 
-use crate::crossing::EdgeHits;
+use crate::crossing::{edge_key, EdgeHits};
 use crate::topology::Topology;
 use crate::util::UnionFind;
-use octocut_octree::Octree;
+use octocut_octree::{Domain, Octree};
 use octocut_surface::{Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
 
@@ -28,8 +28,7 @@ pub(crate) struct Classes {
 }
 
 /// Leaves whose (slightly inflated) box the surface touches (exact triangle-box test).
-pub(crate) fn touched_leaves(tree: &Octree, index: &SurfaceIndex) -> Vec<bool> {
-    let d = &tree.domain;
+pub(crate) fn touched_leaves(tree: &Octree, d: &Domain, index: &SurfaceIndex) -> Vec<bool> {
     tree.leaves()
         .par_iter()
         .with_min_len(256)
@@ -61,15 +60,79 @@ pub(crate) fn is_closed(s: &Surface) -> bool {
     })
 }
 
+const NONE: u32 = u32::MAX;
+
+/// The queried edges as a CSR graph with the winding-number change along each.
+struct Graph<'a> {
+    deg: &'a [u32],
+    adj: &'a [(u32, i32)],
+}
+
+/// Connected components of the graph without the `skip` vertices: each vertex's component and
+/// winding number relative to the component's root; a component is bad when its crossings
+/// disagree around a cycle, or when the surface is not closed.
+struct Components {
+    comp: Vec<u32>,
+    rel: Vec<i32>,
+    roots: Vec<u32>,
+    bad: Vec<bool>,
+}
+
+impl Graph<'_> {
+    fn components(&self, skip: &[bool], closed: bool) -> Components {
+        let np = skip.len();
+        let (deg, adj) = (self.deg, self.adj);
+        let mut comp = vec![NONE; np];
+        let mut rel = vec![0i32; np];
+        let mut roots: Vec<u32> = Vec::new();
+        let mut bad: Vec<bool> = Vec::new();
+        let mut stack: Vec<u32> = Vec::new();
+        for r in 0..np as u32 {
+            if comp[r as usize] != NONE
+                || skip[r as usize]
+                || deg[r as usize] == deg[r as usize + 1]
+            {
+                continue;
+            }
+            let c = roots.len() as u32;
+            roots.push(r);
+            bad.push(!closed);
+            comp[r as usize] = c;
+            stack.push(r);
+            while let Some(p) = stack.pop() {
+                for &(q, dl) in &adj[deg[p as usize] as usize..deg[p as usize + 1] as usize] {
+                    if skip[q as usize] {
+                        continue;
+                    }
+                    let w = rel[p as usize] + dl;
+                    if comp[q as usize] == NONE {
+                        comp[q as usize] = c;
+                        rel[q as usize] = w;
+                        stack.push(q);
+                    } else if rel[q as usize] != w {
+                        bad[c as usize] = true;
+                    }
+                }
+            }
+        }
+        Components {
+            comp,
+            rel,
+            roots,
+            bad,
+        }
+    }
+}
+
 pub(crate) fn classify(
     tree: &Octree,
+    d: &Domain,
     index: &SurfaceIndex,
     topo: &Topology,
     fluid_inside: bool,
     touched: &[bool],
     eh: &EdgeHits,
 ) -> Classes {
-    let d = &tree.domain;
     let leaves = tree.leaves();
     let np = topo.grid.len();
     let gpos = |p: u32| d.point(topo.grid[p as usize]);
@@ -93,35 +156,47 @@ pub(crate) fn classify(
     }
     drop(fill);
     let closed = is_closed(index.surface());
-    const NONE: u32 = u32::MAX;
-    // component of each graph vertex, and its winding number relative to the component's root
-    let mut comp = vec![NONE; np];
-    let mut rel = vec![0i32; np];
-    let mut roots: Vec<u32> = Vec::new();
-    let mut bad: Vec<bool> = Vec::new();
-    let mut stack: Vec<u32> = Vec::new();
-    for r in 0..np as u32 {
-        if comp[r as usize] != NONE || deg[r as usize] == deg[r as usize + 1] {
-            continue;
-        }
-        let c = roots.len() as u32;
-        roots.push(r);
-        bad.push(!closed);
-        comp[r as usize] = c;
-        stack.push(r);
-        while let Some(p) = stack.pop() {
-            for &(q, dl) in &adj[deg[p as usize] as usize..deg[p as usize + 1] as usize] {
-                let w = rel[p as usize] + dl;
-                if comp[q as usize] == NONE {
-                    comp[q as usize] = c;
-                    rel[q as usize] = w;
-                    stack.push(q);
-                } else if rel[q as usize] != w {
-                    bad[c as usize] = true;
+    let graph = Graph {
+        deg: &deg,
+        adj: &adj,
+    };
+    let mut skip = vec![false; np];
+    let mut comps = graph.components(&skip, closed);
+    if closed && comps.bad.iter().any(|&b| b) {
+        // A grid vertex on the surface (or a defect) makes some crossing counts ambiguous. Such
+        // an edge unbalances the faces it bounds: the signed crossings around a face polygon sum
+        // to zero on a closed surface. The vertices of unbalanced faces are evaluated directly
+        // and leave the graph; the rest keeps one evaluation per consistent component.
+        let unbalanced: Vec<u32> = (0..topo.faces.len() as u32)
+            .into_par_iter()
+            .with_min_len(1024)
+            .filter(|&f| {
+                let pts = topo.face(f);
+                let n = pts.len();
+                let mut sum = 0i32;
+                for i in 0..n {
+                    let (p, q) = (pts[i], pts[(i + 1) % n]);
+                    match eh.keys.binary_search(&edge_key(p, q)) {
+                        Ok(e) => sum += if p < q { eh.delta[e] } else { -eh.delta[e] },
+                        Err(_) => return false,
+                    }
                 }
+                sum != 0
+            })
+            .collect();
+        for f in unbalanced {
+            for &p in topo.face(f) {
+                skip[p as usize] = true;
             }
         }
+        comps = graph.components(&skip, closed);
     }
+    let Components {
+        comp,
+        rel,
+        roots,
+        mut bad,
+    } = comps;
     let mut evaluations = 0;
     // one winding number per consistent component, rounded to its integer value
     let seeds: Vec<u32> = roots
@@ -152,12 +227,16 @@ pub(crate) fn classify(
     let mut fluid = vec![false; np];
     let mut known = vec![false; np];
     let direct: Vec<u32> = (0..np as u32)
-        .filter(|&p| comp[p as usize] != NONE && bad[comp[p as usize] as usize])
+        .filter(|&p| {
+            let c = comp[p as usize];
+            (c == NONE && skip[p as usize]) || (c != NONE && bad[c as usize])
+        })
         .collect();
     let dw = index.winding_numbers(&direct.iter().map(|&p| gpos(p)).collect::<Vec<_>>());
     evaluations += direct.len();
     for (&p, &w) in direct.iter().zip(&dw) {
         fluid[p as usize] = (w >= 0.5) == fluid_inside;
+        known[p as usize] = true;
     }
     for p in 0..np {
         let c = comp[p];

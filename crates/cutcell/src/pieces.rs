@@ -130,7 +130,7 @@ impl CellCtx<'_> {
         let topo = self.topo;
         let clip = self.clip;
         let key = self.tree.leaves()[leaf as usize];
-        let cell: Aabb = self.tree.domain.key_box(key);
+        let cell: Aabb = self.pts.domain.key_box(key);
         let h = cell.extent().x;
         let r = cell.center();
         s.polys.clear();

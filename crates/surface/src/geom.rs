@@ -30,7 +30,10 @@ impl Aabb {
 
     /// The empty box: `min = +inf`, `max = -inf`, the identity of [`Aabb::union`].
     pub fn empty() -> Self {
-        Aabb { min: Vec3::splat(f64::INFINITY), max: Vec3::splat(f64::NEG_INFINITY) }
+        Aabb {
+            min: Vec3::splat(f64::INFINITY),
+            max: Vec3::splat(f64::NEG_INFINITY),
+        }
     }
 
     /// The smallest box holding all `points` (empty for none).
@@ -50,7 +53,10 @@ impl Aabb {
 
     /// The smallest box holding both.
     pub fn union(&self, o: &Aabb) -> Aabb {
-        Aabb { min: self.min.min(o.min), max: self.max.max(o.max) }
+        Aabb {
+            min: self.min.min(o.min),
+            max: self.max.max(o.max),
+        }
     }
 
     /// True when `min > max` on some axis.
@@ -96,7 +102,10 @@ impl Aabb {
 
     /// The box grown by `d` on every side.
     pub fn inflated(&self, d: f64) -> Aabb {
-        Aabb { min: self.min - Vec3::splat(d), max: self.max + Vec3::splat(d) }
+        Aabb {
+            min: self.min - Vec3::splat(d),
+            max: self.max + Vec3::splat(d),
+        }
     }
 
     /// Squared distance from `p` to the box (0 inside).

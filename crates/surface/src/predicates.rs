@@ -32,7 +32,11 @@ pub fn orient2d(a: [f64; 2], b: [f64; 2], c: [f64; 2]) -> i32 {
 
 #[inline]
 fn co(p: Vec3) -> robust::Coord3D<f64> {
-    robust::Coord3D { x: p.x, y: p.y, z: p.z }
+    robust::Coord3D {
+        x: p.x,
+        y: p.y,
+        z: p.z,
+    }
 }
 
 #[inline]

@@ -34,7 +34,12 @@ pub fn uv_sphere(center: Vec3, radius: f64, n_lon: u32, n_lat: u32, tag: &str) -
     }
     for j in 1..n_lat - 1 {
         for i in 0..n_lon {
-            let (a, b, c, d) = (ring(j, i), ring(j, i + 1), ring(j + 1, i), ring(j + 1, i + 1));
+            let (a, b, c, d) = (
+                ring(j, i),
+                ring(j, i + 1),
+                ring(j + 1, i),
+                ring(j + 1, i + 1),
+            );
             t.push([a, c, d]);
             t.push([a, d, b]);
         }
@@ -49,7 +54,14 @@ pub fn uv_sphere(center: Vec3, radius: f64, n_lon: u32, n_lat: u32, tag: &str) -
 /// let exact = 2.0 * std::f64::consts::PI.powi(2) * 2.0 * 0.25;
 /// assert!((t.enclosed_volume() - exact).abs() / exact < 0.01);
 /// ```
-pub fn torus(center: Vec3, major: f64, minor: f64, n_major: u32, n_minor: u32, tag: &str) -> Surface {
+pub fn torus(
+    center: Vec3,
+    major: f64,
+    minor: f64,
+    n_major: u32,
+    n_minor: u32,
+    tag: &str,
+) -> Surface {
     let (nu, nv) = (n_major.max(3), n_minor.max(3));
     let mut v = Vec::with_capacity((nu * nv) as usize);
     for i in 0..nu {
@@ -117,7 +129,12 @@ pub fn rotate(s: &mut Surface, rotation: glam::DQuat, pivot: Vec3) {
 
 fn tagged(vertices: Vec<Vec3>, triangles: Vec<[u32; 3]>, tag: &str) -> Surface {
     let n = triangles.len();
-    Surface { vertices, triangles, tags: vec![TagId(0); n], tag_names: vec![tag.to_string()] }
+    Surface {
+        vertices,
+        triangles,
+        tags: vec![TagId(0); n],
+        tag_names: vec![tag.to_string()],
+    }
 }
 
 #[cfg(test)]

@@ -34,7 +34,11 @@ impl Surface {
     #[inline]
     pub fn corners(&self, t: usize) -> [Vec3; 3] {
         let [a, b, c] = self.triangles[t];
-        [self.vertices[a as usize], self.vertices[b as usize], self.vertices[c as usize]]
+        [
+            self.vertices[a as usize],
+            self.vertices[b as usize],
+            self.vertices[c as usize],
+        ]
     }
 
     /// Area-weighted normal (cross product of two edges, length twice the area).
@@ -46,7 +50,12 @@ impl Surface {
 
     /// Bounding box of all referenced vertices.
     pub fn bounding_box(&self) -> Aabb {
-        Aabb::from_points(self.triangles.iter().flatten().map(|&i| self.vertices[i as usize]))
+        Aabb::from_points(
+            self.triangles
+                .iter()
+                .flatten()
+                .map(|&i| self.vertices[i as usize]),
+        )
     }
 
     /// Signed enclosed volume by the divergence theorem (sum of signed tetrahedra to the origin).
@@ -63,7 +72,9 @@ impl Surface {
 
     /// Total surface area.
     pub fn area(&self) -> f64 {
-        (0..self.triangles.len()).map(|t| 0.5 * self.area_normal(t).length()).sum()
+        (0..self.triangles.len())
+            .map(|t| 0.5 * self.area_normal(t).length())
+            .sum()
     }
 
     /// Appends `other`, keeping its tags distinct (its tag ids are shifted past ours).
@@ -71,15 +82,21 @@ impl Surface {
         let v0 = self.vertices.len() as u32;
         let t0 = self.tag_names.len() as u32;
         self.vertices.extend(other.vertices);
-        self.triangles.extend(other.triangles.into_iter().map(|t| t.map(|i| i + v0)));
-        self.tags.extend(other.tags.into_iter().map(|t| TagId(t.0 + t0)));
+        self.triangles
+            .extend(other.triangles.into_iter().map(|t| t.map(|i| i + v0)));
+        self.tags
+            .extend(other.tags.into_iter().map(|t| TagId(t.0 + t0)));
         self.tag_names.extend(other.tag_names);
     }
 
     /// Checks the structural invariants, returning a description of the first violation.
     pub fn check(&self) -> Result<(), String> {
         if self.tags.len() != self.triangles.len() {
-            return Err(format!("{} tags for {} triangles", self.tags.len(), self.triangles.len()));
+            return Err(format!(
+                "{} tags for {} triangles",
+                self.tags.len(),
+                self.triangles.len()
+            ));
         }
         let n = self.vertices.len() as u32;
         for (t, tri) in self.triangles.iter().enumerate() {
@@ -87,10 +104,17 @@ impl Surface {
                 return Err(format!("triangle {t} indexes past {n} vertices"));
             }
         }
-        if let Some((t, tag)) =
-            self.tags.iter().enumerate().find(|(_, g)| g.0 as usize >= self.tag_names.len())
+        if let Some((t, tag)) = self
+            .tags
+            .iter()
+            .enumerate()
+            .find(|(_, g)| g.0 as usize >= self.tag_names.len())
         {
-            return Err(format!("triangle {t} has tag {} of {}", tag.0, self.tag_names.len()));
+            return Err(format!(
+                "triangle {t} has tag {} of {}",
+                tag.0,
+                self.tag_names.len()
+            ));
         }
         Ok(())
     }
@@ -99,7 +123,9 @@ impl Surface {
     pub fn from_soup(triangles: &[[Vec3; 3]], tag_name: &str) -> Surface {
         Surface {
             vertices: triangles.iter().flatten().copied().collect(),
-            triangles: (0..triangles.len() as u32).map(|t| [3 * t, 3 * t + 1, 3 * t + 2]).collect(),
+            triangles: (0..triangles.len() as u32)
+                .map(|t| [3 * t, 3 * t + 1, 3 * t + 2])
+                .collect(),
             tags: vec![TagId(0); triangles.len()],
             tag_names: vec![tag_name.to_string()],
         }
@@ -118,8 +144,16 @@ impl Surface {
             [0, 4, 6, 2], // x = 0
             [1, 3, 7, 5], // x = 1
         ];
-        let triangles = quads.iter().flat_map(|q| [[q[0], q[1], q[2]], [q[0], q[2], q[3]]]).collect();
-        Surface { vertices: v, triangles, tags: vec![TagId(0); 12], tag_names: vec!["cube".into()] }
+        let triangles = quads
+            .iter()
+            .flat_map(|q| [[q[0], q[1], q[2]], [q[0], q[2], q[3]]])
+            .collect();
+        Surface {
+            vertices: v,
+            triangles,
+            tags: vec![TagId(0); 12],
+            tag_names: vec!["cube".into()],
+        }
     }
 
     /// A UV sphere: `rings >= 2` latitude bands, `segments >= 3` longitudes, one vertex at each
