@@ -46,3 +46,53 @@ fn demo_case_files_parse_and_plan() {
         );
     }
 }
+
+#[test]
+fn block_resting_on_the_floor_with_faces_on_grid_planes() {
+    // A block on the ground whose faces all lie on octree grid planes (round dimensions that
+    // are multiples of the finest cell): the box floor is put at the block's lowest point, so
+    // the block's bottom face lies in the floor plane. Exact references: fluid volume = box
+    // volume - block volume; floor patch area = box floor area - block footprint.
+    use octocut::spec::{AroundSpec, BoxPlacement};
+    let (lo, hi) = (Vec3::new(0.0, 0.0, 0.0), Vec3::new(1.0, 0.5, 0.25));
+    let block = shapes::cuboid(lo, hi, "block");
+    let body = block.enclosed_volume();
+    assert!((body - 0.125).abs() < 1e-15);
+    let m = Mesher::from_surface(block, &RepairOptions::default());
+    let mut spec = CaseSpec::quick(vec![], [0.0; 6], 0.25, 0.0625, FluidSpec::Outside);
+    spec.domain.placement = BoxPlacement::Around(AroundSpec {
+        flow: "+x".into(),
+        upstream: 1.0,
+        downstream: 2.0,
+        sides: 1.0,
+        above: 1.0,
+        below: None,
+        floor: true,
+    });
+    let out = m.mesh(&spec, &Hooks::default()).expect("meshes");
+    assert!(out.report.valid);
+    let d = out.domain.bounds();
+    assert_eq!(d.min.z, 0.0, "the floor stays at the block's lowest point");
+    let e = d.extent();
+    let want = e.x * e.y * e.z - body;
+    // the walls may move by the crossing clamp T_EPS = 1e-4 of the finest cell (crossing.rs)
+    // times the wall area (under 2)
+    let tol = 1e-4 * 0.0625 * 2.0;
+    assert!(
+        (out.report.fluid_volume - want).abs() < tol,
+        "fluid {} want {want}",
+        out.report.fluid_volume
+    );
+    let floor = out
+        .report
+        .patches
+        .iter()
+        .find(|p| p.name == "zmin")
+        .expect("zmin patch");
+    let want_floor = e.x * e.y - 0.5;
+    assert!(
+        (floor.area - want_floor).abs() < 1e-4 * 0.0625 * 4.0,
+        "floor area {} want {want_floor}",
+        floor.area
+    );
+}
