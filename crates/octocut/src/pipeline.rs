@@ -9,8 +9,8 @@ use crate::spec::{CaseSpec, FluidSpec, RegionShapeSpec};
 use crate::stages::{Hooks, Stage, StageClock};
 use octocut_cutcell::{cut_cells_with_regions, CutOptions, FluidSide};
 use octocut_octree::{
-    estimate, leaf_regions, refine, Domain, GapSpec, LevelPlan, OctreeError, RefineSpec,
-    RegionShape, SizeRegion, SurfaceRule, TagSel,
+    estimate::DRY_RUN_LEAVES, estimate_kept, leaf_regions, refine, Domain, GapSpec, LevelPlan,
+    OctreeError, RefineSpec, RegionShape, SizeRegion, SurfaceRule, TagSel,
 };
 use octocut_surface::{
     health, load_stl_files, repair, HealthReport, RepairOptions, Surface, SurfaceIndex, Vec3,
@@ -218,7 +218,13 @@ impl Mesher {
         let levels = LevelPlan::new(&domain, self.index.surface(), &rspec).map_err(octree_error)?;
         let mut rspec_est = rspec.clone();
         rspec_est.max_leaves = None;
-        let est = estimate(&domain, &self.index, &rspec_est).map_err(octree_error)?;
+        // A leaf becomes a cell when its centre is on the fluid side: a cut leaf whose centre is
+        // solid holds mostly solid and its fluid part is merged into a neighbour (fraction 1/2).
+        let fluid_inside = matches!(spec.fluid, FluidSpec::Inside);
+        let index = &self.index;
+        let keep = |b: &octocut_surface::Aabb| index.is_inside(b.center()) == fluid_inside;
+        let est = estimate_kept(&domain, index, &rspec_est, DRY_RUN_LEAVES, Some(&keep))
+            .map_err(octree_error)?;
         let b = domain.bounds();
         Ok(Plan {
             domain_box: [b.min.x, b.min.y, b.min.z, b.max.x, b.max.y, b.max.z],
@@ -234,7 +240,8 @@ impl Mesher {
                     cell_size: e.cell_size,
                 })
                 .collect(),
-            estimated_cells: est.leaves,
+            estimated_leaves: est.leaves,
+            estimated_cells: (est.leaves as f64 * est.kept_fraction).ceil() as u64,
             // the whole process: measured 493 to 532 bytes a leaf of peak RSS at 3.6M and 14M
             // leaves (benches/README.md, whole process); 600 keeps a margin
             estimated_memory_bytes: est.memory_bytes.max(est.leaves.saturating_mul(600)),

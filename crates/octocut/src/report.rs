@@ -20,6 +20,10 @@ pub struct Plan {
     pub base_cells: [u32; 3],
     pub base_size: f64,
     pub levels: Vec<PlannedSize>,
+    /// Predicted octree leaves after balance.
+    pub estimated_leaves: u64,
+    /// Predicted cells: the leaves times the share whose centre is on the fluid side (sampled
+    /// on the estimate's deepest capped tree).
     pub estimated_cells: u64,
     pub estimated_memory_bytes: u64,
     pub max_cells: u64,
@@ -135,8 +139,9 @@ pub fn plan_table(p: &Plan) -> String {
         );
     }
     s += &format!(
-        "  estimate      {} cells, {:.2} GiB (limits {} cells, {:.1} GiB)",
+        "  estimate      {} cells ({} octree leaves), {:.2} GiB (limits {} cells, {:.1} GiB)",
         si(p.estimated_cells as f64),
+        si(p.estimated_leaves as f64),
         p.estimated_memory_bytes as f64 / (1u64 << 30) as f64,
         si(p.max_cells as f64),
         p.max_memory_bytes as f64 / (1u64 << 30) as f64

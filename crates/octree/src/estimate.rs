@@ -13,7 +13,8 @@ use crate::domain::Domain;
 use crate::key::OctKey;
 use crate::refine::refine_leaves;
 use crate::spec::{LevelPlan, OctreeError, RefineSpec};
-use octocut_surface::SurfaceIndex;
+use octocut_surface::{Aabb, SurfaceIndex};
+use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 /// Dry runs stop once a capped tree holds this many leaves.
@@ -35,7 +36,13 @@ pub struct Estimate {
     pub measured_level: u8,
     /// Deepest requested level.
     pub max_level: u8,
+    /// Share of the deepest capped tree's leaves that the caller's `keep` test accepted (on an
+    /// evenly strided sample of at most [`KEEP_SAMPLES`] leaves); 1 without a test.
+    pub kept_fraction: f64,
 }
+
+/// Most leaves of the capped tree handed to the `keep` test of [`estimate_kept`].
+pub const KEEP_SAMPLES: usize = 20_000;
 
 /// Estimates the leaves and memory `refine(domain, index, spec)` would need.
 ///
@@ -65,18 +72,53 @@ pub fn estimate_with_budget(
     spec: &RefineSpec,
     dry_run_leaves: u64,
 ) -> Result<Estimate, OctreeError> {
+    estimate_kept(domain, index, spec, dry_run_leaves, None)
+}
+
+/// [`estimate_with_budget`] that also measures which share of the leaves will become cells:
+/// `keep(leaf box)` runs on an evenly strided sample of the deepest capped tree (e.g. "the
+/// leaf is fluid or cut"), and the share is returned as [`Estimate::kept_fraction`]. Limit:
+/// the share is that of the capped tree, whose coarse leaves away from the surface weigh more
+/// than in the finished tree.
+///
+/// ```
+/// use octocut_octree::{estimate_kept, Domain, RefineSpec, SurfaceRule, TagSel};
+/// use octocut_surface::{Aabb, Surface, SurfaceIndex, Vec3};
+/// let index = SurfaceIndex::new(Surface::unit_cube());
+/// let d = Domain::new(Aabb::new(Vec3::splat(-1.0), Vec3::splat(2.0)), 1.0).unwrap();
+/// let mut spec = RefineSpec::default();
+/// spec.surface.push(SurfaceRule { tag: TagSel::All, size: 0.25, finest_size: None });
+/// // keep the leaves whose centre lies outside the unit cube
+/// let keep = |b: &Aabb| !Aabb::new(Vec3::ZERO, Vec3::ONE).contains_point(b.center());
+/// let e = estimate_kept(&d, &index, &spec, 200_000, Some(&keep)).unwrap();
+/// assert!(e.kept_fraction > 0.5 && e.kept_fraction < 1.0);
+/// ```
+pub fn estimate_kept(
+    domain: &Domain,
+    index: &SurfaceIndex,
+    spec: &RefineSpec,
+    dry_run_leaves: u64,
+    keep: Option<&(dyn Fn(&Aabb) -> bool + Sync)>,
+) -> Result<Estimate, OctreeError> {
     let budget = dry_run_leaves.max(1);
     let plan = LevelPlan::new(domain, index.surface(), spec)?;
     let lmax = plan.max_level;
     let mut prev: Option<u64> = None;
     let mut cap = 0u8;
     loop {
-        let leaves = match refine_leaves(domain, index, spec, &plan, cap, Some(8 * budget)) {
-            Ok((l, _)) => balance(domain, l, spec.balance, spec.transition_layers)?.len() as u64,
-            // the capped tree alone is large: it bounds the answer from below
-            Err(OctreeError::TooManyLeaves { .. }) => 8 * budget,
-            Err(e) => return Err(e),
-        };
+        let (leaves, kept_fraction) =
+            match refine_leaves(domain, index, spec, &plan, cap, Some(8 * budget)) {
+                Ok((l, _)) => {
+                    let b = balance(domain, l, spec.balance, spec.transition_layers)?;
+                    (
+                        b.len() as u64,
+                        keep.map_or(1.0, |k| kept_share(domain, &b, k)),
+                    )
+                }
+                // the capped tree alone is large: it bounds the answer from below
+                Err(OctreeError::TooManyLeaves { .. }) => (8 * budget, 1.0),
+                Err(e) => return Err(e),
+            };
         if cap >= lmax || leaves >= budget {
             let (n, exact) = if cap >= lmax {
                 (leaves, true)
@@ -95,11 +137,26 @@ pub fn estimate_with_budget(
                 exact,
                 measured_level: cap,
                 max_level: lmax,
+                kept_fraction,
             });
         }
         prev = Some(leaves);
         cap += 1;
     }
+}
+
+/// Share of an evenly strided sample of `leaves` that `keep` accepts.
+fn kept_share(domain: &Domain, leaves: &[OctKey], keep: &(dyn Fn(&Aabb) -> bool + Sync)) -> f64 {
+    if leaves.is_empty() {
+        return 1.0;
+    }
+    let stride = leaves.len().div_ceil(KEEP_SAMPLES);
+    let sample: Vec<OctKey> = leaves.iter().step_by(stride).copied().collect();
+    let kept = sample
+        .par_iter()
+        .filter(|&&k| keep(&domain.key_box(k)))
+        .count();
+    kept as f64 / sample.len() as f64
 }
 
 const _: () = assert!(std::mem::size_of::<OctKey>() == 16);

@@ -31,7 +31,7 @@ pub mod tree;
 
 pub use balance::balance;
 pub use domain::{Domain, DomainError};
-pub use estimate::{estimate, estimate_with_budget, Estimate};
+pub use estimate::{estimate, estimate_kept, estimate_with_budget, Estimate, KEEP_SAMPLES};
 pub use key::{OctKey, MAX_DEPTH};
 pub use refine::{leaf_regions, refine, refine_unbalanced, RefineStats, Refined};
 pub use region::{RegionShape, SizeRegion};
