@@ -57,6 +57,21 @@ fn bench(c: &mut Criterion) {
         index.heap_bytes() as f64 / 1e6
     );
 
+    for (name, ix) in [("default", &index)] {
+        let (mut far, mut near) = (0, 0);
+        let probe = points(10_000, &bb, 4);
+        for &p in &probe {
+            let (f, n) = ix.winding_work(p);
+            far += f;
+            near += n;
+        }
+        eprintln!(
+            "winding work per query ({name}, beta {}): {:.1} far-field expansions, {:.1} triangles summed exactly",
+            ix.options().winding_beta,
+            far as f64 / probe.len() as f64,
+            near as f64 / probe.len() as f64
+        );
+    }
     let mut g = c.benchmark_group("winding");
     g.sample_size(10);
     let pts = points(100_000, &bb, 1);
