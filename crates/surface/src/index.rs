@@ -17,7 +17,7 @@ use crate::surface::Surface;
 use crate::tree::RadixTree;
 use crate::tribox::triangle_box_overlap;
 use crate::winding::winding_number_direct;
-use crate::winding_tree::WindingTree;
+use crate::winding_tree::{WindingTree, PACKET};
 use rayon::prelude::*;
 use std::cell::RefCell;
 
@@ -286,26 +286,41 @@ impl SurfaceIndex {
             .winding_number(&self.tree, p, self.options.winding_beta)
     }
 
-    /// Hierarchical winding numbers of many points, in parallel (each point independent, so the
-    /// result does not depend on the thread count). Large batches are evaluated in Morton order
-    /// of the points, so that neighbouring queries share cached tree nodes.
+    /// Hierarchical winding numbers of many points, in parallel, equal bit for bit to
+    /// [`SurfaceIndex::winding_number`] of each (so independent of the thread count). The
+    /// points are evaluated in Morton order, in packets of neighbours walking the tree together
+    /// ([`WindingTree::winding_numbers_packet`]); results come back in the caller's order.
     pub fn winding_numbers(&self, points: &[Vec3]) -> Vec<f64> {
-        if points.len() < 4096 || points.len() > u32::MAX as usize {
-            return points
-                .par_iter()
-                .with_min_len(256)
-                .map(|&p| self.winding_number(p))
-                .collect();
+        let mut out = vec![0.0; points.len()];
+        if points.len() > u32::MAX as usize {
+            out.par_iter_mut()
+                .zip(points)
+                .for_each(|(w, &p)| *w = self.winding_number(p));
+            return out;
         }
         let sorted = crate::tree::morton_sorted(points);
-        let values: Vec<f64> = sorted
-            .par_iter()
-            .with_min_len(256)
-            .map(|&(_, i)| self.winding_number(points[i as usize]))
+        let values: Vec<[f64; PACKET]> = sorted
+            .par_chunks(PACKET)
+            .with_min_len(16)
+            .map(|chunk| {
+                let mut qs = [Vec3::ZERO; PACKET];
+                for (q, &(_, i)) in qs.iter_mut().zip(chunk) {
+                    *q = points[i as usize];
+                }
+                let mut w = [0.0; PACKET];
+                self.winding.winding_numbers_packet(
+                    &self.tree,
+                    &qs[..chunk.len()],
+                    self.options.winding_beta,
+                    &mut w,
+                );
+                w
+            })
             .collect();
-        let mut out = vec![0.0; points.len()];
-        for (&(_, i), w) in sorted.iter().zip(values) {
-            out[i as usize] = w;
+        for (chunk, w) in sorted.chunks(PACKET).zip(values) {
+            for (&(_, i), v) in chunk.iter().zip(w) {
+                out[i as usize] = v;
+            }
         }
         out
     }
