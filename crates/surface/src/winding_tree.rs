@@ -253,8 +253,8 @@ impl WindingTree {
             let q = qs[k.min(n - 1)];
             (qx[k], qy[k], qz[k]) = (q.x, q.y, q.z);
         }
-        let full = (((1u32 << n) - 1) & 0xff) as u8;
-        let mut stack = [(0u32, 0u8); STACK];
+        let full = (1u32 << n).wrapping_sub(1);
+        let mut stack = [(0u32, 0u32); STACK];
         stack[0] = (0, full);
         let mut top = 1;
         let mut far = [0.0; PACKET];
@@ -267,13 +267,13 @@ impl WindingTree {
             let (id, mask) = stack[top];
             let h = self.hot[id as usize];
             let lim = beta2 * h.r2;
-            let mut fm = 0u8;
+            let mut fm = 0u32;
             for k in 0..PACKET {
                 dx[k] = h.center.x - qx[k];
                 dy[k] = h.center.y - qy[k];
                 dz[k] = h.center.z - qz[k];
                 l2[k] = dx[k] * dx[k] + dy[k] * dy[k] + dz[k] * dz[k];
-                fm |= ((l2[k] > lim) as u8) << k;
+                fm |= ((l2[k] > lim) as u32) << k;
             }
             let fm = fm & mask;
             let nm = mask & !fm;
