@@ -1,5 +1,7 @@
-//! Spatial index throughput: hierarchical vs exact winding numbers on a ~100k-triangle torus,
-//! index build time for ~1M triangles, box and segment queries.
+//! Spatial index throughput: hierarchical winding numbers (batch on all threads and on one,
+//! single queries) vs the exact sum on a ~100k-triangle torus, index build time for ~1M
+//! triangles, box and segment queries. Prints the mean work of a query (far-field expansions,
+//! triangles summed exactly).
 //!
 //! Run briefly: `cargo bench --bench winding -- --warm-up-time 1 --measurement-time 3`.
 
@@ -78,6 +80,13 @@ fn bench(c: &mut Criterion) {
     g.throughput(Throughput::Elements(pts.len() as u64));
     g.bench_function("hierarchical_batch_100k_points", |b| {
         b.iter(|| index.winding_numbers(&pts))
+    });
+    let one = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .expect("a one-thread pool");
+    g.bench_function("hierarchical_batch_100k_points_1_thread", |b| {
+        b.iter(|| one.install(|| index.winding_numbers(&pts)))
     });
     let fast = SurfaceIndex::with_options(
         s.clone(),

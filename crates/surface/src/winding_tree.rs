@@ -14,10 +14,12 @@
 //! [`crate::winding::solid_angle`]), here as the argument of a running product of complex
 //! numbers, one `atan2` per query (see `Near`), over a copy of the corners in tree order.
 //! The winding number is the one defined by Jacobson, Kavan, Sorkine-Hornung (2013): the
-//! summed solid angle over 4 pi.
+//! summed solid angle over 4 pi. Batches walk the tree in packets of [`PACKET`] points (node
+//! tests and far-field terms vectorised across the points, AVX2 when the CPU has it).
 //!
 //! Invariants: a node whose sphere (radius `r`) holds `q` is never expanded (`beta >= 1`); the
-//! result for a point depends only on the point, the surface and `beta`; the truncation error
+//! result for a point depends only on the point, the surface and `beta`, bit for bit the same
+//! alone or in any packet (same nodes, same order, no fused multiply-add); the truncation error
 //! falls as `beta` grows (measured in `tests/spatial_queries.rs`).
 
 use crate::geom::{Aabb, Vec3};
