@@ -505,12 +505,12 @@ fn far_field(ex: &Expansion, x: f64, y: f64, z: f64, l2: f64) -> f64 {
     ];
     let o3 = ex.n[0] * x + ex.n[1] * y + ex.n[2] * z + ex.tr;
     let mut o5 = ex.w[0] * x + ex.w[1] * y + ex.w[2] * z;
-    for k in 0..6 {
-        o5 += ex.m[k] * dd[k];
+    for (c, v) in ex.m.iter().zip(&dd) {
+        o5 += c * v;
     }
     let mut o7 = 0.0;
-    for k in 0..10 {
-        o7 += ex.t[k] * ddd[k];
+    for (c, v) in ex.t.iter().zip(&ddd) {
+        o7 += c * v;
     }
     inv3 * (o3 + inv2 * (o5 + inv2 * o7))
 }
