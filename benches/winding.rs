@@ -1,5 +1,7 @@
-//! Spatial index throughput: hierarchical vs exact winding numbers on a ~100k-triangle torus,
-//! index build time for ~1M triangles, box and segment queries.
+//! Spatial index throughput: hierarchical winding numbers (batch on all threads and on one,
+//! single queries) vs the exact sum on a ~100k-triangle torus, index build time for ~1M
+//! triangles, box and segment queries. Prints the mean work of a query (far-field expansions,
+//! triangles summed exactly).
 //!
 //! Run briefly: `cargo bench --bench winding -- --warm-up-time 1 --measurement-time 3`.
 
@@ -57,12 +59,34 @@ fn bench(c: &mut Criterion) {
         index.heap_bytes() as f64 / 1e6
     );
 
+    for (name, ix) in [("default", &index)] {
+        let (mut far, mut near) = (0, 0);
+        let probe = points(10_000, &bb, 4);
+        for &p in &probe {
+            let (f, n) = ix.winding_work(p);
+            far += f;
+            near += n;
+        }
+        eprintln!(
+            "winding work per query ({name}, beta {}): {:.1} far-field expansions, {:.1} triangles summed exactly",
+            ix.options().winding_beta,
+            far as f64 / probe.len() as f64,
+            near as f64 / probe.len() as f64
+        );
+    }
     let mut g = c.benchmark_group("winding");
     g.sample_size(10);
     let pts = points(100_000, &bb, 1);
     g.throughput(Throughput::Elements(pts.len() as u64));
     g.bench_function("hierarchical_batch_100k_points", |b| {
         b.iter(|| index.winding_numbers(&pts))
+    });
+    let one = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .expect("a one-thread pool");
+    g.bench_function("hierarchical_batch_100k_points_1_thread", |b| {
+        b.iter(|| one.install(|| index.winding_numbers(&pts)))
     });
     let fast = SurfaceIndex::with_options(
         s.clone(),

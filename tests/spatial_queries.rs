@@ -426,13 +426,31 @@ fn hierarchical_winding_number_error_against_exact_sum() {
         let bb = s
             .bounding_box()
             .inflated(0.25 * s.bounding_box().diagonal());
-        let pts: Vec<Vec3> = (0..1500).map(|_| rand_point(&mut rng, &bb)).collect();
+        // 1500 points in the box, 1500 near the surface: off a random point of a random
+        // triangle along its normal by 1e-4 to 1e-1 of the box diagonal, either side
+        let mut pts: Vec<Vec3> = (0..1500).map(|_| rand_point(&mut rng, &bb)).collect();
+        while pts.len() < 3000 {
+            let [a, b, c] = s.corners(rng.random_range(0..s.triangles.len()));
+            let n = (b - a).cross(c - a);
+            if n.length() == 0.0 {
+                continue;
+            }
+            let (u, v): (f64, f64) = (rng.random(), rng.random());
+            let (u, v) = if u + v > 1.0 {
+                (1.0 - u, 1.0 - v)
+            } else {
+                (u, v)
+            };
+            let off = 10f64.powf(rng.random_range(-4.0..-1.0)) * bb.diagonal();
+            let side = if rng.random::<bool>() { 1.0 } else { -1.0 };
+            pts.push(a + u * (b - a) + v * (c - a) + side * off * n.normalize());
+        }
         let exact: Vec<f64> = {
             let ix = SurfaceIndex::new(s.clone());
             pts.iter().map(|&p| ix.winding_number_exact(p)).collect()
         };
         let mut prev = f64::INFINITY;
-        for beta in [1.5, 2.0, 3.0, 3.5, 4.0, 6.0] {
+        for beta in [1.5, 2.0, 2.5, 3.0, 3.5, 4.0, 6.0] {
             let ix = SurfaceIndex::with_options(
                 s.clone(),
                 IndexOptions {
