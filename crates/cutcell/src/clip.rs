@@ -7,10 +7,14 @@
 //! Where the surface normals at the two crossings of a cut differ by more than the feature
 //! angle, the point where the body's sharp edge pierces the face (intersection of the two
 //! tangent planes with the face plane, as in dual contouring, Ju et al. 2002) is put into the
-//! cut path. Output per face: fluid polygons (oriented like the face) and directed cut paths
-//! ("chords", exit crossing to entry crossing, as the polygon traverses them).
+//! cut path. An edge between two fluid vertices that the surface crosses exactly twice with
+//! solid between the hits (a sharp edge or a thin part poking through it, invisible to the
+//! vertex classes) is a "poke": both hits become shared points and every face through the
+//! edge clips as if a solid vertex sat between them, so the cells around the edge agree.
+//! Output per face: fluid polygons (oriented like the face) and directed cut paths ("chords",
+//! exit crossing to entry crossing, as the polygon traverses them).
 
-use crate::crossing::EdgeTable;
+use crate::crossing::{EdgeTable, T_EPS};
 use crate::topology::Topology;
 use octocut_octree::Domain;
 use octocut_surface::{SurfaceIndex, Vec3};
@@ -24,7 +28,10 @@ pub(crate) struct Clip {
     pub chord_off: Vec<u32>,
     pub chord_pts: Vec<u32>,
     pub chord_poly: Vec<u32>,
+    /// Extra points: first the poke points (two per poke edge), then the pierce points.
     pub pierce: Vec<Vec3>,
+    /// Unit surface normal and triangle of each poke point (the first entries of `pierce`).
+    pub poke_plane: Vec<(Vec3, u32)>,
 }
 
 impl Clip {
@@ -36,6 +43,10 @@ impl Clip {
     }
     pub fn poly(&self, p: u32) -> &[u32] {
         &self.poly_pts[self.poly_off[p as usize] as usize..self.poly_off[p as usize + 1] as usize]
+    }
+    /// Normal and triangle of extra point `k` (index into `pierce`) if it is a poke point.
+    pub fn poke_plane(&self, k: u32) -> Option<(Vec3, u32)> {
+        self.poke_plane.get(k as usize).copied()
     }
     pub fn chord(&self, c: u32) -> &[u32] {
         &self.chord_pts
@@ -56,6 +67,22 @@ pub(crate) struct ClipCtx<'a> {
 }
 
 const LOCAL: u32 = 1 << 31;
+/// Flag of a virtual solid vertex between the two hits of poke `(x & !VIRT) >> 1`, low bit set
+/// when the face runs along the edge from its key's high end (grid ids stay below `1 << 30`).
+const VIRT: u32 = 1 << 30;
+
+/// Poke edges of the edge table (see the module doc).
+#[derive(Default)]
+struct Pokes {
+    /// Sorted edge-table indices.
+    edge: Vec<u32>,
+    /// Two hits per poke, from the key's low end: (point, unit normal, triangle).
+    hit: Vec<(Vec3, Vec3, u32)>,
+    /// Grid point ends some poke edge (empty without pokes).
+    vertex: Vec<bool>,
+    /// Point id of the first poke point.
+    base: u32,
+}
 
 #[derive(Default)]
 struct Chunk {
@@ -88,6 +115,93 @@ impl ClipCtx<'_> {
         self.n_grid + c
     }
 
+    /// The crossing point between consecutive entries `a`, `b` of a face's (poked) vertex walk.
+    fn cross_between(&self, pk: &Pokes, a: u32, b: u32) -> u32 {
+        if b & VIRT != 0 {
+            // the hit nearer `a`, the start of the edge in face order
+            pk.base + (b & !VIRT)
+        } else if a & VIRT != 0 {
+            pk.base + ((a & !VIRT) ^ 1)
+        } else {
+            self.crossing_id(a, b)
+        }
+    }
+
+    /// Position and unit normal of a chord end (a crossing or a poke point).
+    fn plane(&self, pk: &Pokes, id: u32) -> (Vec3, Vec3) {
+        if id >= pk.base {
+            let h = pk.hit[(id - pk.base) as usize];
+            (h.0, h.1)
+        } else {
+            let c = &self.edges.crossings[(id - self.n_grid) as usize];
+            (c.point, c.normal)
+        }
+    }
+
+    /// The poke edges among the edge table's edges, their points numbered from `base`.
+    fn find_pokes(&self, base: u32) -> Pokes {
+        let e = self.edges;
+        let cand: Vec<u32> = (0..e.keys.len() as u32)
+            .into_par_iter()
+            .with_min_len(4096)
+            .filter(|&i| {
+                let k = e.keys[i as usize];
+                e.hits[i as usize] == 2
+                    && self.fluid[(k >> 32) as usize]
+                    && self.fluid[k as u32 as usize]
+            })
+            .collect();
+        let s = self.index.surface();
+        let found: Vec<Option<[(Vec3, Vec3, u32); 2]>> = cand
+            .par_iter()
+            .map_init(Vec::new, |buf, &i| {
+                let k = e.keys[i as usize];
+                let (a, b) = (self.gpos((k >> 32) as u32), self.gpos(k as u32));
+                self.index.segment_crossings(a, b, buf);
+                buf.dedup_by(|x, y| x.t == y.t);
+                if buf.len() != 2 {
+                    return None;
+                }
+                let t0 = buf[0].t.clamp(T_EPS, 1.0 - T_EPS);
+                let t1 = buf[1].t.clamp(T_EPS, 1.0 - T_EPS);
+                // solid between the hits (one winding-number sample), hits apart
+                if t1 - t0 < T_EPS
+                    || self.index.is_inside(a + 0.5 * (t0 + t1) * (b - a)) == self.fluid_inside
+                {
+                    return None;
+                }
+                let hit = |t: f64, tri: u32| {
+                    let n = if (tri as usize) < s.triangles.len() {
+                        s.area_normal(tri as usize).normalize_or_zero()
+                    } else {
+                        Vec3::ZERO
+                    };
+                    (a + t * (b - a), n, tri)
+                };
+                Some([hit(t0, buf[0].triangle), hit(t1, buf[1].triangle)])
+            })
+            .collect();
+        let mut pk = Pokes {
+            base,
+            ..Default::default()
+        };
+        for (&i, h) in cand.iter().zip(found) {
+            if let Some(h) = h {
+                pk.edge.push(i);
+                pk.hit.extend_from_slice(&h);
+            }
+        }
+        if !pk.edge.is_empty() {
+            pk.vertex = vec![false; self.topo.grid.len()];
+            for &i in &pk.edge {
+                let k = e.keys[i as usize];
+                pk.vertex[(k >> 32) as usize] = true;
+                pk.vertex[k as u32 as usize] = true;
+            }
+        }
+        pk
+    }
+
     fn gpos(&self, p: u32) -> Vec3 {
         self.domain.point(self.topo.grid[p as usize])
     }
@@ -106,26 +220,30 @@ impl ClipCtx<'_> {
         self.index.is_inside(c) == self.fluid_inside
     }
 
-    /// The pierce point of the body's sharp edge between crossings `x` and `y` on face `f`.
-    fn pierce(&self, f: u32, pts: &[u32], x: u32, y: u32) -> Option<Vec3> {
-        let cx = &self.edges.crossings[(x - self.n_grid) as usize];
-        let cy = &self.edges.crossings[(y - self.n_grid) as usize];
-        if cx.normal.dot(cy.normal) >= self.cos_feature
-            || cx.normal == Vec3::ZERO
-            || cy.normal == Vec3::ZERO
-        {
+    /// Is the midpoint of chord ends `x`, `y` fluid (one winding-number sample)?
+    fn mid_fluid(&self, pk: &Pokes, x: u32, y: u32) -> bool {
+        let c = 0.5 * (self.plane(pk, x).0 + self.plane(pk, y).0);
+        self.index.is_inside(c) == self.fluid_inside
+    }
+
+    /// The pierce point of the body's sharp edge between chord ends `x` and `y` (point, unit
+    /// normal) on face `f`.
+    fn pierce(&self, f: u32, pts: &[u32], x: (Vec3, Vec3), y: (Vec3, Vec3)) -> Option<Vec3> {
+        let (px, nx) = x;
+        let (py, ny) = y;
+        if nx.dot(ny) >= self.cos_feature || nx == Vec3::ZERO || ny == Vec3::ZERO {
             return None;
         }
         let ax = self.topo.faces[f as usize].axis();
         let p0 = self.gpos(pts[0]);
         let mut n3 = Vec3::ZERO;
         n3[ax] = 1.0;
-        let (n1, n2) = (cx.normal, cy.normal);
+        let (n1, n2) = (nx, ny);
         let det = n1.dot(n2.cross(n3));
         if det.abs() < 1e-6 {
             return None;
         }
-        let (d1, d2, d3) = (n1.dot(cx.point), n2.dot(cy.point), p0[ax]);
+        let (d1, d2, d3) = (n1.dot(px), n2.dot(py), p0[ax]);
         let p = (d1 * n2.cross(n3) + d2 * n3.cross(n1) + d3 * n1.cross(n2)) / det;
         // strictly inside the face square, away from both crossings
         let (mut lo, mut hi) = (Vec3::splat(f64::INFINITY), Vec3::splat(f64::NEG_INFINITY));
@@ -147,21 +265,46 @@ impl ClipCtx<'_> {
                 p[i] = p[i].clamp(lo[i] + m, hi[i] - m);
             }
         }
-        if (p - cx.point).length() < m || (p - cy.point).length() < m {
+        if (p - px).length() < m || (p - py).length() < m {
             return None;
         }
         Some(p)
     }
 
-    fn clip_face(&self, f: u32, out: &mut Chunk, runs: &mut Vec<Run>) {
+    fn clip_face(
+        &self,
+        f: u32,
+        out: &mut Chunk,
+        runs: &mut Vec<Run>,
+        aug: &mut Vec<u32>,
+        pk: &Pokes,
+    ) {
         let pts = self.topo.face(f);
-        let n = pts.len();
         let nfl = pts.iter().filter(|&&p| self.fluid[p as usize]).count();
         if nfl == 0 {
             out.n_polys.push(0);
             out.n_chords.push(0);
             return;
         }
+        // the vertex walk, with a virtual solid vertex inside every poke edge
+        aug.clear();
+        if !pk.edge.is_empty() && pts.iter().any(|&p| pk.vertex[p as usize]) {
+            let n = pts.len();
+            for i in 0..n {
+                let (p, q) = (pts[i], pts[(i + 1) % n]);
+                aug.push(p);
+                if pk.vertex[p as usize] && pk.vertex[q as usize] {
+                    if let Some(e) = self.edges.find(p, q) {
+                        if let Ok(j) = pk.edge.binary_search(&(e as u32)) {
+                            aug.push(VIRT | (j as u32) << 1 | (p > q) as u32);
+                        }
+                    }
+                }
+            }
+        }
+        let poked = aug.len() > pts.len();
+        let seq: &[u32] = if poked { aug } else { pts };
+        let n = seq.len();
         if nfl == n {
             out.n_polys.push(1);
             out.poly_len.push(n as u32);
@@ -169,7 +312,10 @@ impl ClipCtx<'_> {
             out.n_chords.push(0);
             return;
         }
-        let fl = |i: usize| self.fluid[pts[i % n] as usize];
+        let fl = |i: usize| {
+            let p = seq[i % n];
+            p & VIRT == 0 && self.fluid[p as usize]
+        };
         let s = (0..n).find(|&i| !fl(i + n - 1) && fl(i)).unwrap();
         runs.clear();
         let mut i = s;
@@ -180,8 +326,8 @@ impl ClipCtx<'_> {
                     i += 1;
                 }
                 let end = i;
-                let entry = self.crossing_id(pts[(start + n - 1) % n], pts[start % n]);
-                let exit = self.crossing_id(pts[end % n], pts[(end + 1) % n]);
+                let entry = self.cross_between(pk, seq[(start + n - 1) % n], seq[start % n]);
+                let exit = self.cross_between(pk, seq[end % n], seq[(end + 1) % n]);
                 runs.push(Run {
                     entry,
                     exit,
@@ -192,11 +338,18 @@ impl ClipCtx<'_> {
             i += 1;
         }
         let k = runs.len();
-        let single = k == 1 || self.centre_fluid(pts);
+        // ambiguous: one fluid region when the centre is fluid; with pokes, when the first
+        // chord of the one-region reading runs through fluid
+        let single = k == 1
+            || if poked {
+                self.mid_fluid(pk, runs[0].exit, runs[1].entry)
+            } else {
+                self.centre_fluid(pts)
+            };
         let push_run = |out: &mut Chunk, r: &Run| {
             out.poly_pts.push(r.entry);
             for j in r.start..=r.end {
-                out.poly_pts.push(pts[j % n]);
+                out.poly_pts.push(seq[j % n]);
             }
             out.poly_pts.push(r.exit);
         };
@@ -205,7 +358,7 @@ impl ClipCtx<'_> {
             let mut len = 2;
             let mut extra = 0;
             if allow_pierce && self.pierce_cuts {
-                if let Some(p) = self.pierce(f, pts, x, y) {
+                if let Some(p) = self.pierce(f, pts, self.plane(pk, x), self.plane(pk, y)) {
                     let id = LOCAL | out.pierce.len() as u32;
                     out.pierce.push(p);
                     out.chord_pts.push(id);
@@ -243,14 +396,15 @@ impl ClipCtx<'_> {
 
     pub fn run(&self, pierce_base: u32) -> Clip {
         let nf = self.topo.faces.len() as u32;
+        let pk = self.find_pokes(pierce_base);
         let ids: Vec<u32> = (0..nf).collect();
         let chunks: Vec<Chunk> = ids
             .par_chunks(2048)
             .map(|fs| {
                 let mut out = Chunk::default();
-                let mut runs = Vec::new();
+                let (mut runs, mut aug) = (Vec::new(), Vec::new());
                 for &f in fs {
-                    self.clip_face(f, &mut out, &mut runs);
+                    self.clip_face(f, &mut out, &mut runs, &mut aug, &pk);
                 }
                 out
             })
@@ -263,7 +417,8 @@ impl ClipCtx<'_> {
             chord_off: vec![0],
             chord_pts: Vec::new(),
             chord_poly: Vec::new(),
-            pierce: Vec::new(),
+            pierce: pk.hit.iter().map(|h| h.0).collect(),
+            poke_plane: pk.hit.iter().map(|h| (h.1, h.2)).collect(),
         };
         c.face_poly.push(0);
         c.face_chord.push(0);

@@ -277,9 +277,16 @@ impl CellCtx<'_> {
             let id = s.loop_pts[k];
             let p = self.pts.get(id);
             s.pos.push(p);
-            if let Some(c) = self.pts.crossing(id) {
-                s.planes.push((c.point, c.normal));
-                let t = self.tag_of_triangle(c.triangle);
+            let plane = match self.pts.crossing(id) {
+                Some(c) => Some((c.normal, c.triangle)),
+                None if id >= self.pts.pierce_base => {
+                    self.clip.poke_plane(id - self.pts.pierce_base)
+                }
+                None => None,
+            };
+            if let Some((normal, triangle)) = plane {
+                s.planes.push((p, normal));
+                let t = self.tag_of_triangle(triangle);
                 if tag == u32::MAX {
                     tag = t;
                 } else if t != tag {
