@@ -32,6 +32,8 @@ pub(crate) struct Clip {
     pub pierce: Vec<Vec3>,
     /// Unit surface normal and triangle of each poke point (the first entries of `pierce`).
     pub poke_plane: Vec<(Vec3, u32)>,
+    /// Per entry of `pierce`: the two facet normals meeting there (zero for poke points).
+    pub pair: Vec<[Vec3; 2]>,
 }
 
 impl Clip {
@@ -95,6 +97,10 @@ struct Chunk {
     /// polygon of each chord, as an index among its face's polygons
     chord_poly: Vec<u32>,
     pierce: Vec<Vec3>,
+    /// the two normals meeting at each pierce point
+    pair: Vec<[Vec3; 2]>,
+    found: Vec<(Vec3, [Vec3; 2])>,
+    tris: Vec<u32>,
 }
 
 struct Run {
@@ -226,26 +232,39 @@ impl ClipCtx<'_> {
         self.index.is_inside(c) == self.fluid_inside
     }
 
-    /// The pierce point of the body's sharp edge between chord ends `x` and `y` (point, unit
-    /// normal) on face `f`.
-    fn pierce(&self, f: u32, pts: &[u32], x: (Vec3, Vec3), y: (Vec3, Vec3)) -> Option<Vec3> {
+    /// The pierce points of the body's sharp edges between chord ends `x` and `y` (point, unit
+    /// normal) on face `f`, into `found` as (point, the two normals meeting there): one where
+    /// the two tangent planes meet on the face; two where a third facet lies between them (a
+    /// corner of the body near the face: the trace runs x, (1,3), (3,2), y).
+    fn pierce(
+        &self,
+        f: u32,
+        pts: &[u32],
+        x: (Vec3, Vec3),
+        y: (Vec3, Vec3),
+        found: &mut Vec<(Vec3, [Vec3; 2])>,
+        tris: &mut Vec<u32>,
+    ) {
+        found.clear();
         let (px, nx) = x;
         let (py, ny) = y;
         if nx.dot(ny) >= self.cos_feature || nx == Vec3::ZERO || ny == Vec3::ZERO {
-            return None;
+            return;
         }
         let ax = self.topo.faces[f as usize].axis();
-        let p0 = self.gpos(pts[0]);
+        let d3 = self.gpos(pts[0])[ax];
         let mut n3 = Vec3::ZERO;
         n3[ax] = 1.0;
-        let (n1, n2) = (nx, ny);
-        let det = n1.dot(n2.cross(n3));
-        if det.abs() < 1e-6 {
-            return None;
-        }
-        let (d1, d2, d3) = (n1.dot(px), n2.dot(py), p0[ax]);
-        let p = (d1 * n2.cross(n3) + d2 * n3.cross(n1) + d3 * n1.cross(n2)) / det;
-        // strictly inside the face square, away from both crossings
+        // where the planes (n1, through q1) and (n2, through q2) meet the face plane
+        let meet = |n1: Vec3, q1: Vec3, n2: Vec3, q2: Vec3| {
+            let det = n1.dot(n2.cross(n3));
+            (det.abs() >= 1e-6).then(|| {
+                (n1.dot(q1) * n2.cross(n3) + n2.dot(q2) * n3.cross(n1) + d3 * n1.cross(n2)) / det
+            })
+        };
+        let Some(p) = meet(nx, px, ny, py) else {
+            return;
+        };
         let (mut lo, mut hi) = (Vec3::splat(f64::INFINITY), Vec3::splat(f64::NEG_INFINITY));
         for &q in pts {
             let g = self.gpos(q);
@@ -254,21 +273,62 @@ impl ClipCtx<'_> {
         }
         let h = (hi - lo).max_element();
         let m = 1e-3 * h;
+        // strictly inside the face square, away from the chord ends
+        let inside = |q: Vec3| {
+            (0..3).all(|i| i == ax || (q[i] >= lo[i] + m && q[i] <= hi[i] - m))
+                && (q - px).length() >= m
+                && (q - py).length() >= m
+        };
+        let on_surface = |q: Vec3| {
+            self.index
+                .closest_point(q)
+                .is_some_and(|c| c.distance <= 1e-6 * h)
+        };
+        if !(inside(p) && on_surface(p)) {
+            // a third facet between the two planes: try each distinct facet plane near the face
+            let s = self.index.surface();
+            let mut b = octocut_surface::Aabb::new(lo, hi);
+            b.min[ax] -= m;
+            b.max[ax] += m;
+            self.index.triangles_in_box(&b, tris);
+            for &t in tris.iter() {
+                let n = s.area_normal(t as usize).normalize_or_zero();
+                if n == Vec3::ZERO || n.dot(nx) >= self.cos_feature || n.dot(ny) >= self.cos_feature
+                {
+                    continue;
+                }
+                let q = s.corners(t as usize)[0];
+                let (Some(k1), Some(k2)) = (meet(nx, px, n, q), meet(n, q, ny, py)) else {
+                    continue;
+                };
+                if inside(k1)
+                    && inside(k2)
+                    && (k1 - k2).length() >= m
+                    && on_surface(k1)
+                    && on_surface(k2)
+                    && on_surface(0.5 * (k1 + k2))
+                {
+                    found.push((k1, [nx, n]));
+                    found.push((k2, [n, ny]));
+                    return;
+                }
+            }
+        }
         // a pierce point just outside the face (the sharp edge passes by) is pulled inside: the
         // chord then follows the edge's tip as the face clips it; far outside it is not used
         let mut p = p;
         for i in 0..3 {
             if i != ax {
                 if p[i] < lo[i] - 0.5 * h || p[i] > hi[i] + 0.5 * h {
-                    return None;
+                    return;
                 }
                 p[i] = p[i].clamp(lo[i] + m, hi[i] - m);
             }
         }
         if (p - px).length() < m || (p - py).length() < m {
-            return None;
+            return;
         }
-        Some(p)
+        found.push((p, [nx, ny]));
     }
 
     fn clip_face(
@@ -353,24 +413,34 @@ impl ClipCtx<'_> {
             }
             out.poly_pts.push(r.exit);
         };
-        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, allow_pierce: bool| -> u32 {
+        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, allow_pierce: bool| {
             out.chord_pts.push(x);
             let mut len = 2;
-            let mut extra = 0;
             if allow_pierce && self.pierce_cuts {
-                if let Some(p) = self.pierce(f, pts, self.plane(pk, x), self.plane(pk, y)) {
+                let mut found = std::mem::take(&mut out.found);
+                let mut tris = std::mem::take(&mut out.tris);
+                self.pierce(
+                    f,
+                    pts,
+                    self.plane(pk, x),
+                    self.plane(pk, y),
+                    &mut found,
+                    &mut tris,
+                );
+                for &(p, pair) in &found {
                     let id = LOCAL | out.pierce.len() as u32;
                     out.pierce.push(p);
+                    out.pair.push(pair);
                     out.chord_pts.push(id);
                     out.poly_pts.push(id);
                     len += 1;
-                    extra = 1;
                 }
+                out.found = found;
+                out.tris = tris;
             }
             out.chord_pts.push(y);
             out.chord_len.push(len);
             out.chord_poly.push(poly);
-            extra
         };
         if single {
             let before = out.poly_pts.len();
@@ -419,6 +489,7 @@ impl ClipCtx<'_> {
             chord_poly: Vec::new(),
             pierce: pk.hit.iter().map(|h| h.0).collect(),
             poke_plane: pk.hit.iter().map(|h| (h.1, h.2)).collect(),
+            pair: vec![[Vec3::ZERO; 2]; pk.hit.len()],
         };
         c.face_poly.push(0);
         c.face_chord.push(0);
@@ -432,6 +503,7 @@ impl ClipCtx<'_> {
         for ch in chunks {
             let base = c.pierce.len() as u32;
             c.pierce.extend_from_slice(&ch.pierce);
+            c.pair.extend_from_slice(&ch.pair);
             let mut pl = ch.poly_len.iter();
             let mut cl = ch.chord_len.iter();
             let mut cp = ch.chord_poly.iter();

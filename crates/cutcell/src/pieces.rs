@@ -80,6 +80,11 @@ pub(crate) struct Scratch {
     piece_of: Vec<u32>,
     pos: Vec<Vec3>,
     planes: Vec<(Vec3, Vec3)>,
+    edge_pts: Vec<(usize, [Vec3; 2])>,
+    joins: Vec<(usize, usize)>,
+    sub: Vec<u32>,
+    alive: Vec<bool>,
+    ends: Vec<u32>,
 }
 
 /// A reusable union-find (empty by default).
@@ -253,7 +258,20 @@ impl CellCtx<'_> {
         }
     }
 
+    /// The two facet normals meeting at point `id` if it is a pierce point.
+    fn pair_of(&self, id: u32) -> Option<[Vec3; 2]> {
+        if id < self.pts.pierce_base {
+            return None;
+        }
+        let pr = *self.clip.pair.get((id - self.pts.pierce_base) as usize)?;
+        (pr[1] != Vec3::ZERO).then_some(pr)
+    }
+
     /// Triangulates one wall loop; returns its volume contribution.
+    ///
+    /// Two pierce points of the loop on the same sharp edge (same two facet normals, the
+    /// segment between them on the surface) are joined through the cell, splitting the loop
+    /// into parts that each lie on one side of the edge; each part is then triangulated alone.
     #[allow(clippy::too_many_arguments)]
     fn emit_wall(
         &self,
@@ -269,12 +287,129 @@ impl CellCtx<'_> {
         if m < 3 {
             return 0.0;
         }
+        // pierce points of the loop and the edge segments joining pairs of them
+        s.edge_pts.clear();
+        for k in 0..m {
+            if let Some(pr) = self.pair_of(s.loop_pts[lp.start + k]) {
+                s.edge_pts.push((k, pr));
+            }
+        }
+        s.joins.clear();
+        if s.edge_pts.len() >= 2 {
+            let same = |a: [Vec3; 2], b: [Vec3; 2]| {
+                let c = 1.0 - 1e-9;
+                (a[0].dot(b[0]) > c && a[1].dot(b[1]) > c)
+                    || (a[0].dot(b[1]) > c && a[1].dot(b[0]) > c)
+            };
+            let ne = s.edge_pts.len();
+            let mut used = [false; 64];
+            for i in 0..ne.min(64) {
+                if used[i] {
+                    continue;
+                }
+                for j in i + 1..ne.min(64) {
+                    let (ki, kj) = (s.edge_pts[i].0, s.edge_pts[j].0);
+                    if used[j] || kj - ki == 1 || (ki == 0 && kj == m - 1) {
+                        continue;
+                    }
+                    if !same(s.edge_pts[i].1, s.edge_pts[j].1) {
+                        continue;
+                    }
+                    let (a, b) = (
+                        self.pts.get(s.loop_pts[lp.start + ki]),
+                        self.pts.get(s.loop_pts[lp.start + kj]),
+                    );
+                    let on = |q: Vec3| {
+                        self.index
+                            .closest_point(q)
+                            .is_some_and(|c| c.distance <= 1e-6 * h)
+                    };
+                    if on(0.5 * (a + b)) && on(0.25 * (3.0 * a + b)) && on(0.25 * (a + 3.0 * b)) {
+                        used[i] = true;
+                        used[j] = true;
+                        s.joins.push((ki, kj));
+                        break;
+                    }
+                }
+            }
+            // the joins must not cross (nested or disjoint in loop order)
+            let crossing = s.joins.iter().any(|&(a, b)| {
+                s.joins
+                    .iter()
+                    .any(|&(c, d)| (a < c && c < b && b < d) || (c < a && a < d && d < b))
+            });
+            if crossing {
+                s.joins.clear();
+            }
+        }
+        if s.joins.is_empty() {
+            let ids = std::mem::take(&mut s.sub);
+            let mut ids = ids;
+            ids.clear();
+            ids.extend_from_slice(&s.loop_pts[lp]);
+            let v = self.emit_part(s, &ids, &[], piece, cell, h, r, out);
+            s.sub = ids;
+            return v;
+        }
+        // split: the parts are the loop's arcs between joins, innermost first
+        s.joins.sort_unstable_by_key(|&(a, b)| (b - a, a));
+        let mut alive = std::mem::take(&mut s.alive);
+        alive.clear();
+        alive.resize(m, true);
+        let mut ids = std::mem::take(&mut s.sub);
+        let mut ends = std::mem::take(&mut s.ends);
+        ends.clear();
+        let mut vol = 0.0;
+        for &(a, b) in s.joins.clone().iter() {
+            ids.clear();
+            for k in a..=b {
+                if alive[k] {
+                    ids.push(s.loop_pts[lp.start + k]);
+                }
+            }
+            for flag in alive.iter_mut().take(b).skip(a + 1) {
+                *flag = false;
+            }
+            ends.push(s.loop_pts[lp.start + a]);
+            ends.push(s.loop_pts[lp.start + b]);
+            vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
+        }
+        ids.clear();
+        for k in 0..m {
+            if alive[k] {
+                ids.push(s.loop_pts[lp.start + k]);
+            }
+        }
+        vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
+        s.sub = ids;
+        s.alive = alive;
+        s.ends = ends;
+        vol
+    }
+
+    /// Triangulates one closed part of a wall loop (`ids`, in order); pierce points in `joined`
+    /// end an edge segment of the part and bring no facet planes. Returns its volume term.
+    #[allow(clippy::too_many_arguments)]
+    fn emit_part(
+        &self,
+        s: &mut Scratch,
+        ids: &[u32],
+        joined: &[u32],
+        piece: u32,
+        cell: &Aabb,
+        h: f64,
+        r: Vec3,
+        out: &mut CutChunk,
+    ) -> f64 {
+        let m = ids.len();
+        if m < 3 {
+            return 0.0;
+        }
         s.pos.clear();
         s.planes.clear();
         let mut tag = u32::MAX;
         let mut mixed = false;
-        for k in lp.clone() {
-            let id = s.loop_pts[k];
+        for &id in ids {
             let p = self.pts.get(id);
             s.pos.push(p);
             let plane = match self.pts.crossing(id) {
@@ -291,6 +426,11 @@ impl CellCtx<'_> {
                     tag = t;
                 } else if t != tag {
                     mixed = true;
+                }
+            } else if let Some(pr) = self.pair_of(id) {
+                if !joined.contains(&id) {
+                    s.planes.push((p, pr[0]));
+                    s.planes.push((p, pr[1]));
                 }
             }
         }
@@ -319,7 +459,7 @@ impl CellCtx<'_> {
                     .all(|p| nn.dot(*p - s.pos[0]).abs() <= 1e-9 * h)
         };
         if m == 3 && !feature || planar && !mixed {
-            out.wall_pts.extend_from_slice(&s.loop_pts[lp.clone()]);
+            out.wall_pts.extend_from_slice(ids);
             out.wall_len.push(m as u32);
             out.wall_piece.push(piece);
             out.wall_tag.push(tag);
@@ -342,11 +482,8 @@ impl CellCtx<'_> {
         out.new_pts.push(apex);
         for i in 0..m {
             let (a, b) = (s.pos[i], s.pos[(i + 1) % m]);
-            out.wall_pts.extend_from_slice(&[
-                s.loop_pts[lp.start + i],
-                s.loop_pts[lp.start + (i + 1) % m],
-                apex_id,
-            ]);
+            out.wall_pts
+                .extend_from_slice(&[ids[i], ids[(i + 1) % m], apex_id]);
             out.wall_len.push(3);
             out.wall_piece.push(piece);
             out.wall_tag.push(if mixed {
