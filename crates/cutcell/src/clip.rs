@@ -7,7 +7,8 @@
 //! Where the surface normals at the two crossings of a cut differ by more than the feature
 //! angle, the point where the body's sharp edge pierces the face (intersection of the two
 //! tangent planes with the face plane, as in dual contouring, Ju et al. 2002) is put into the
-//! cut path. An edge between two fluid vertices that the surface crosses exactly twice with
+//! cut path; where that point is off the surface and a third facet near the face meets both
+//! planes on the surface (a body corner near the face), its two meeting points are. An edge between two fluid vertices that the surface crosses exactly twice with
 //! solid between the hits (a sharp edge or a thin part poking through it, invisible to the
 //! vertex classes) is a "poke": both hits become shared points and every face through the
 //! edge clips as if a solid vertex sat between them, so the cells around the edge agree.

@@ -5,9 +5,12 @@
 //! loops (each crossing on the leaf's boundary starts exactly one chord and ends exactly one, as
 //! the two faces sharing its edge traverse it in opposite directions). Face polygons sharing a
 //! point, and chords with their polygon and loop, are joined by union-find; each component is
-//! one cell. A loop whose crossing normals differ by more than the feature angle is fanned to
-//! the dual-contouring feature vertex (Ju et al. 2002), else a planar single-tag loop is kept
-//! as one face and any other is fanned to its centroid. Volumes follow from the divergence
+//! one cell. Two pierce points of a loop on the same sharp edge (same facet normals, the segment
+//! between them on the surface) are joined through the cell, splitting the loop into parts on
+//! either side of the edge. A part whose crossing and pierce-point normals differ by more than
+//! the feature angle is fanned to the dual-contouring feature vertex (Ju et al. 2002), else a
+//! planar single-tag part is kept as one face and any other is fanned to the surface point
+//! nearest its centroid. Volumes follow from the divergence
 //! theorem over the closed piece boundary. Invariant: every piece is a closed oriented surface.
 
 use crate::clip::Clip;
@@ -360,13 +363,11 @@ impl CellCtx<'_> {
         let mut ends = std::mem::take(&mut s.ends);
         ends.clear();
         let mut vol = 0.0;
-        for &(a, b) in s.joins.clone().iter() {
+        for j in 0..s.joins.len() {
+            let (a, b) = s.joins[j];
             ids.clear();
-            for k in a..=b {
-                if alive[k] {
-                    ids.push(s.loop_pts[lp.start + k]);
-                }
-            }
+            let arc = &s.loop_pts[lp.start + a..=lp.start + b];
+            ids.extend(arc.iter().zip(&alive[a..=b]).filter(|x| *x.1).map(|x| *x.0));
             for flag in alive.iter_mut().take(b).skip(a + 1) {
                 *flag = false;
             }
@@ -375,11 +376,8 @@ impl CellCtx<'_> {
             vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
         }
         ids.clear();
-        for k in 0..m {
-            if alive[k] {
-                ids.push(s.loop_pts[lp.start + k]);
-            }
-        }
+        let all = &s.loop_pts[lp.clone()];
+        ids.extend(all.iter().zip(&alive).filter(|x| *x.1).map(|x| *x.0));
         vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
         s.sub = ids;
         s.alive = alive;
