@@ -225,12 +225,25 @@ fn prism_edges_through_grid_edges_are_exact() {
         *p = centre + rot * q;
     }
     let rot_t = rot.transpose();
-    for lv in [4u8, 5] {
+    // outside: fluid pokes nowhere; inside: fluid pokes through edges between solid vertices
+    for (lv, fluid) in [4u8, 5].into_iter().flat_map(|l| [(l, false), (l, true)]) {
         let h = 1.0 / (1u32 << lv) as f64;
-        let (out, v) = mesh(&s, lv, &CutOptions::default());
-        // exact: the box minus the prism's part inside it, 1 - side^2 (the prism spans z)
-        let want = 1.0 - side * side;
-        eprintln!("prism level {lv}: fluid {v:.12} exact {want:.12}");
+        let opts = CutOptions {
+            fluid: if fluid {
+                FluidSide::Inside
+            } else {
+                FluidSide::Outside
+            },
+            ..Default::default()
+        };
+        let (out, v) = mesh(&s, lv, &opts);
+        // exact: the prism's part inside the box is side^2 (the prism spans z); the box rest
+        let want = if fluid {
+            side * side
+        } else {
+            1.0 - side * side
+        };
+        eprintln!("prism level {lv} inside {fluid}: fluid {v:.12} exact {want:.12}");
         assert!((v - want).abs() < 1e-9, "level {lv}: fluid {v} vs {want}");
         // every wall vertex on a side of the prism (box signed distance, common practice)
         let m = &out.mesh;
@@ -247,7 +260,10 @@ fn prism_edges_through_grid_edges_are_exact() {
                 }
             }
         }
-        eprintln!("prism level {lv}: worst wall vertex {:.3e} h", worst / h);
+        eprintln!(
+            "prism level {lv} inside {fluid}: worst wall vertex {:.3e} h",
+            worst / h
+        );
         // the cut runs in a grid frame shifted by under 1e-6 h (see `grid_shift`)
         assert!(
             worst <= 2e-6 * h,

@@ -8,10 +8,13 @@
 //! angle, the point where the body's sharp edge pierces the face (intersection of the two
 //! tangent planes with the face plane, as in dual contouring, Ju et al. 2002) is put into the
 //! cut path; where that point is off the surface and a third facet near the face meets both
-//! planes on the surface (a body corner near the face), its two meeting points are. An edge between two fluid vertices that the surface crosses exactly twice with
-//! solid between the hits (a sharp edge or a thin part poking through it, invisible to the
+//! planes on the surface (a body corner near the face), its two meeting points are. An edge
+//! whose two vertices share a class and that the surface crosses exactly twice with the other
+//! class between the hits (a sharp edge or a thin part poking through it, invisible to the
 //! vertex classes) is a "poke": both hits become shared points and every face through the
-//! edge clips as if a solid vertex sat between them, so the cells around the edge agree.
+//! edge clips as if a vertex of the other class sat between them, so the cells around the
+//! edge agree; such a face with several fluid runs is one region when a straight segment
+//! between two runs' fluid points misses the surface.
 //! Output per face: fluid polygons (oriented like the face) and directed cut paths ("chords",
 //! exit crossing to entry crossing, as the polygon traverses them).
 
@@ -154,8 +157,7 @@ impl ClipCtx<'_> {
             .filter(|&i| {
                 let k = e.keys[i as usize];
                 e.hits[i as usize] == 2
-                    && self.fluid[(k >> 32) as usize]
-                    && self.fluid[k as u32 as usize]
+                    && self.fluid[(k >> 32) as usize] == self.fluid[k as u32 as usize]
             })
             .collect();
         let s = self.index.surface();
@@ -171,10 +173,11 @@ impl ClipCtx<'_> {
                 }
                 let t0 = buf[0].t.clamp(T_EPS, 1.0 - T_EPS);
                 let t1 = buf[1].t.clamp(T_EPS, 1.0 - T_EPS);
-                // solid between the hits (one winding-number sample), hits apart
-                if t1 - t0 < T_EPS
-                    || self.index.is_inside(a + 0.5 * (t0 + t1) * (b - a)) == self.fluid_inside
-                {
+                // the other class between the hits (one winding-number sample), hits apart
+                let end_fluid = self.fluid[(k >> 32) as usize];
+                let mid_fluid =
+                    self.index.is_inside(a + 0.5 * (t0 + t1) * (b - a)) == self.fluid_inside;
+                if t1 - t0 < T_EPS || mid_fluid == end_fluid {
                     return None;
                 }
                 let hit = |t: f64, tri: u32| {
@@ -227,10 +230,11 @@ impl ClipCtx<'_> {
         self.index.is_inside(c) == self.fluid_inside
     }
 
-    /// Is the midpoint of chord ends `x`, `y` fluid (one winding-number sample)?
-    fn mid_fluid(&self, pk: &Pokes, x: u32, y: u32) -> bool {
-        let c = 0.5 * (self.plane(pk, x).0 + self.plane(pk, y).0);
-        self.index.is_inside(c) == self.fluid_inside
+    /// Does the segment `a`-`b` miss the surface (a straight fluid path between two runs)?
+    fn straight_path(&self, a: Vec3, b: Vec3) -> bool {
+        let mut hits = Vec::new();
+        self.index.segment_crossings(a, b, &mut hits);
+        hits.is_empty()
     }
 
     /// The pierce points of the body's sharp edges between chord ends `x` and `y` (point, unit
@@ -341,13 +345,7 @@ impl ClipCtx<'_> {
         pk: &Pokes,
     ) {
         let pts = self.topo.face(f);
-        let nfl = pts.iter().filter(|&&p| self.fluid[p as usize]).count();
-        if nfl == 0 {
-            out.n_polys.push(0);
-            out.n_chords.push(0);
-            return;
-        }
-        // the vertex walk, with a virtual solid vertex inside every poke edge
+        // the vertex walk, with a virtual vertex of the other class inside every poke edge
         aug.clear();
         if !pk.edge.is_empty() && pts.iter().any(|&p| pk.vertex[p as usize]) {
             let n = pts.len();
@@ -366,6 +364,21 @@ impl ClipCtx<'_> {
         let poked = aug.len() > pts.len();
         let seq: &[u32] = if poked { aug } else { pts };
         let n = seq.len();
+        // a virtual vertex follows its edge's first end in the walk
+        let fl = |i: usize| {
+            let p = seq[i % n];
+            if p & VIRT == 0 {
+                self.fluid[p as usize]
+            } else {
+                !self.fluid[seq[(i + n - 1) % n] as usize]
+            }
+        };
+        let nfl = (0..n).filter(|&i| fl(i)).count();
+        if nfl == 0 {
+            out.n_polys.push(0);
+            out.n_chords.push(0);
+            return;
+        }
         if nfl == n {
             out.n_polys.push(1);
             out.poly_len.push(n as u32);
@@ -373,10 +386,6 @@ impl ClipCtx<'_> {
             out.n_chords.push(0);
             return;
         }
-        let fl = |i: usize| {
-            let p = seq[i % n];
-            p & VIRT == 0 && self.fluid[p as usize]
-        };
         let s = (0..n).find(|&i| !fl(i + n - 1) && fl(i)).unwrap();
         runs.clear();
         let mut i = s;
@@ -399,35 +408,53 @@ impl ClipCtx<'_> {
             i += 1;
         }
         let k = runs.len();
-        // ambiguous: one fluid region when the centre is fluid; with pokes, when the first
-        // chord of the one-region reading runs through fluid
+        // a run of one virtual fluid vertex: its polygon needs a point besides the two hits
+        let lone = |r: &Run| r.start == r.end && seq[r.start % n] & VIRT != 0;
+        // a fluid point of a run: its first vertex, or the middle of its poke interval
+        let inner = |r: &Run| {
+            if lone(r) {
+                0.5 * (self.plane(pk, r.entry).0 + self.plane(pk, r.exit).0)
+            } else {
+                self.gpos(seq[r.start % n])
+            }
+        };
+        // ambiguous: one fluid region when the centre is fluid; with pokes, when a straight
+        // fluid path joins the first two runs
         let single = k == 1
             || if poked {
-                self.mid_fluid(pk, runs[0].exit, runs[1].entry)
+                self.straight_path(inner(&runs[0]), inner(&runs[1]))
             } else {
                 self.centre_fluid(pts)
             };
         let push_run = |out: &mut Chunk, r: &Run| {
             out.poly_pts.push(r.entry);
             for j in r.start..=r.end {
-                out.poly_pts.push(seq[j % n]);
+                if seq[j % n] & VIRT == 0 {
+                    out.poly_pts.push(seq[j % n]);
+                }
             }
             out.poly_pts.push(r.exit);
         };
-        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, allow_pierce: bool| {
+        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, pierce: bool, lone: bool| {
             out.chord_pts.push(x);
             let mut len = 2;
-            if allow_pierce && self.pierce_cuts {
+            if (pierce && self.pierce_cuts) || lone {
                 let mut found = std::mem::take(&mut out.found);
                 let mut tris = std::mem::take(&mut out.tris);
-                self.pierce(
-                    f,
-                    pts,
-                    self.plane(pk, x),
-                    self.plane(pk, y),
-                    &mut found,
-                    &mut tris,
-                );
+                let (px, py) = (self.plane(pk, x), self.plane(pk, y));
+                self.pierce(f, pts, px, py, &mut found, &mut tris);
+                if found.is_empty() && lone {
+                    // no pierce point: a point just inside the face off the hits' midpoint
+                    let mid = 0.5 * (px.0 + py.0);
+                    let mut c = Vec3::ZERO;
+                    for &q in pts {
+                        c += self.gpos(q);
+                    }
+                    let c = c / pts.len() as f64;
+                    let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
+                    let p = mid + (c - mid).normalize_or_zero() * 1e-3 * h;
+                    found.push((p, [Vec3::ZERO; 2]));
+                }
                 for &(p, pair) in &found {
                     let id = LOCAL | out.pierce.len() as u32;
                     out.pierce.push(p);
@@ -448,7 +475,7 @@ impl ClipCtx<'_> {
             for (j, r) in runs.iter().enumerate() {
                 push_run(out, r);
                 let next = &runs[(j + 1) % k];
-                chord(out, r.exit, next.entry, 0, k == 1);
+                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && lone(r));
             }
             out.n_polys.push(1);
             out.poly_len.push((out.poly_pts.len() - before) as u32);
@@ -457,7 +484,7 @@ impl ClipCtx<'_> {
             for (j, r) in runs.iter().enumerate() {
                 let before = out.poly_pts.len();
                 push_run(out, r);
-                chord(out, r.exit, r.entry, j as u32, false);
+                chord(out, r.exit, r.entry, j as u32, false, lone(r));
                 out.poly_len.push((out.poly_pts.len() - before) as u32);
             }
             out.n_polys.push(k as u32);

@@ -312,12 +312,12 @@ pub fn cut_cells_with_regions(
         pierce_cuts: opts.pierce_points,
     }
     .run(pierce_base);
-    // a fluid leaf beside a face that a poke edge cuts (see `clip`) is cut
+    // a uniform leaf beside a face that a poke edge cuts (see `clip`) is cut
     if !clip.poke_plane.is_empty() {
         for (f, face) in topo.faces.iter().enumerate() {
             if !clip.chords_of(f as u32).is_empty() {
                 for l in [face.e, face.n] {
-                    if (l as usize) < leaves.len() && status[l as usize] == FLUID {
+                    if (l as usize) < leaves.len() && status[l as usize] != CUT {
                         status[l as usize] = CUT;
                     }
                 }
