@@ -416,7 +416,15 @@ fn domain_box_clips_a_body_on_the_floor() {
 #[test]
 fn output_is_identical_at_one_and_two_threads() {
     let t = torus(Vec3::new(0.5, 0.49, 0.51), 0.28, 0.1, 32, 16);
-    let index = SurfaceIndex::new(t);
+    // the rotated cube exercises pierce points, poke edges, edge splits and feature vertices
+    let c = rotated_cube(Vec3::new(0.5, 0.49, 0.51), 0.45, 0.4, 0.7);
+    for s in [t, c] {
+        same_at_one_and_two_threads(s);
+    }
+}
+
+fn same_at_one_and_two_threads(s: Surface) {
+    let index = SurfaceIndex::new(s);
     let tree = refined_tree(unit_domain(), &index, 5);
     let run = |n| {
         rayon::ThreadPoolBuilder::new()
