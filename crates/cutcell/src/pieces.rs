@@ -476,6 +476,38 @@ impl CellCtx<'_> {
                 _ => mass.clamp(inner.min, inner.max),
             }
         };
+        // an apex next to a loop point (a feature vertex the cell clamp pushed onto a pierce
+        // point) would leave sliver triangles: fan from that loop point instead
+        let (kn, dn) = s
+            .pos
+            .iter()
+            .map(|p| (*p - apex).length())
+            .enumerate()
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .unwrap_or((0, f64::INFINITY));
+        if dn < 0.02 * h {
+            let p0 = s.pos[kn];
+            let fan_ok = (1..m - 1).all(|i| {
+                let (a, b) = (s.pos[(kn + i) % m], s.pos[(kn + i + 1) % m]);
+                (a - p0).cross(b - p0).length() > 1e-6 * h * h
+            });
+            if fan_ok {
+                for i in 1..m - 1 {
+                    let (ia, ib) = ((kn + i) % m, (kn + i + 1) % m);
+                    let (a, b) = (s.pos[ia], s.pos[ib]);
+                    out.wall_pts.extend_from_slice(&[ids[kn], ids[ia], ids[ib]]);
+                    out.wall_len.push(3);
+                    out.wall_piece.push(piece);
+                    out.wall_tag.push(if mixed {
+                        self.nearest_tag((a + b + p0) / 3.0)
+                    } else {
+                        tag
+                    });
+                    vol += fan_volume(&[p0, a, b], r);
+                }
+                return vol;
+            }
+        }
         let apex_id = LOCAL | out.new_pts.len() as u32;
         out.new_pts.push(apex);
         for i in 0..m {
