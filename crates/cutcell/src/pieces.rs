@@ -15,7 +15,7 @@
 
 use crate::clip::Clip;
 use crate::crossing::Crossing;
-use crate::feature::qef_vertex;
+use crate::feature::{qef_unclamped, qef_vertex};
 use crate::topology::Topology;
 use crate::util::UnionFind;
 use octocut_octree::{Domain, Octree};
@@ -468,16 +468,20 @@ impl CellCtx<'_> {
         // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
         // edge of the leaf without being one of that face's vertices (a T-junction)
         let inner = cell.inflated(-crate::crossing::T_EPS * h);
-        let apex = if feature {
-            qef_vertex(&s.planes, mass, &inner)
+        let (apex, wanted) = if feature {
+            (
+                qef_vertex(&s.planes, mass, &inner),
+                qef_unclamped(&s.planes, mass),
+            )
         } else {
-            match self.index.closest_point(mass) {
-                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
-                _ => mass.clamp(inner.min, inner.max),
-            }
+            let p = match self.index.closest_point(mass) {
+                Some(c) if c.distance < 0.5 * h => c.point,
+                _ => mass,
+            };
+            (p.clamp(inner.min, inner.max), p)
         };
-        // an apex next to a loop point (a feature vertex the cell clamp pushed onto a pierce
-        // point) would leave sliver triangles: fan from that loop point instead
+        // an apex that the cell clamp pushed next to a loop point (a feature vertex outside
+        // the cell, near a pierce point) would leave sliver triangles: fan from that point
         let (kn, dn) = s
             .pos
             .iter()
@@ -485,7 +489,7 @@ impl CellCtx<'_> {
             .enumerate()
             .min_by(|a, b| a.1.total_cmp(&b.1))
             .unwrap_or((0, f64::INFINITY));
-        if dn < 0.02 * h {
+        if apex != wanted && dn < 1e-3 * h {
             let p0 = s.pos[kn];
             let fan_ok = (1..m - 1).all(|i| {
                 let (a, b) = (s.pos[(kn + i) % m], s.pos[(kn + i + 1) % m]);
