@@ -315,7 +315,7 @@ struct AsciiLines<'w> {
 impl AsciiLines<'_> {
     fn value(&mut self) -> io::Result<()> {
         let b = self.pending;
-        if self.count % 12 != 0 {
+        if !self.count.is_multiple_of(12) {
             self.w.write_all(b" ")?;
         }
         match self.kind {
@@ -325,14 +325,14 @@ impl AsciiLines<'_> {
             Kind::U8 => write!(self.w, "{}", b[0]),
         }?;
         self.count += 1;
-        if self.count % 12 == 0 {
+        if self.count.is_multiple_of(12) {
             self.w.write_all(b"\n")?;
         }
         Ok(())
     }
 
     fn finish(self) -> io::Result<()> {
-        if self.count % 12 != 0 {
+        if !self.count.is_multiple_of(12) {
             self.w.write_all(b"\n")?;
         }
         Ok(())
