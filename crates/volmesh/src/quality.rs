@@ -176,6 +176,8 @@ struct Acc {
     flagged: u64,
     /// The worst values with their face ids (at most [`N_WORST`], any order).
     worst: Vec<(f64, u32)>,
+    /// Index in `worst` of its least bad value once `worst` is full.
+    least: usize,
     above: bool,
 }
 
@@ -189,6 +191,7 @@ impl Acc {
             counts: vec![0; bins],
             flagged: 0,
             worst: Vec::with_capacity(N_WORST),
+            least: 0,
             above,
         }
     }
@@ -202,18 +205,27 @@ impl Acc {
     fn keep_worst(&mut self, x: (f64, u32)) {
         if self.worst.len() < N_WORST {
             self.worst.push(x);
+            if self.worst.len() == N_WORST {
+                self.find_least();
+            }
             return;
         }
         // replace the least bad kept value when `x` is worse
+        if self.worse(x, self.worst[self.least]) {
+            self.worst[self.least] = x;
+            self.find_least();
+        }
+    }
+
+    /// Points `least` at the least bad kept value.
+    fn find_least(&mut self) {
         let mut least = 0;
         for i in 1..self.worst.len() {
             if self.worse(self.worst[least], self.worst[i]) {
                 least = i;
             }
         }
-        if self.worse(x, self.worst[least]) {
-            self.worst[least] = x;
-        }
+        self.least = least;
     }
 
     fn push(&mut self, v: f64, id: u32, bins: &[f64], t: &Threshold) {
@@ -367,51 +379,78 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                 Acc::new(skew_bins.len(), true),
                 Acc::new(ratio_bins.len(), true),
             ];
-            for i in 0..o_no.len() {
-                let c = k * CHUNK + i;
-                let (mut no, mut sk, mut vr) = (0.0f64, 0.0f64, 1.0f64);
-                let (mut dmin, mut dmax) = (f64::INFINITY, 0.0f64);
-                let x = centroid[c];
+            // worst face values and plane distances of the chunk's cells; a face between two
+            // cells of the chunk is computed once, by its owner, for both
+            let base = k * CHUNK;
+            let len = o_no.len();
+            let inside = |c: usize| (base..base + len).contains(&c);
+            let mut dmin = vec![f64::INFINITY; len];
+            let mut dmax = vec![0.0f64; len];
+            o_no.fill(0.0);
+            o_sk.fill(0.0);
+            o_vr.fill(1.0);
+            let dist = |a: Vec3, fc: Vec3, c: usize| {
+                let l = a.length();
+                (l > 0.0).then(|| ((fc - centroid[c]).dot(a) / l).abs())
+            };
+            for i in 0..len {
+                let c = base + i;
                 for &f in cf.of(c) {
                     let f = f as usize;
-                    let (a, fc) = polygon_area_centroid(pts, mesh.face(f));
                     let o = mesh.owner[f] as usize;
-                    if f < ni {
+                    let mut cells = [c, usize::MAX];
+                    let (a, fc) = if f < ni {
                         let n = mesh.neighbour[f] as usize;
+                        if o != c && inside(o) {
+                            continue; // done from its owner
+                        }
+                        let (a, fc) = polygon_area_centroid(pts, mesh.face(f));
                         let m = face_measures(
                             a,
                             fc,
                             [centroid[o], centroid[n]],
                             [volume[o], volume[n]],
                         );
-                        no = no.max(m.0);
-                        sk = sk.max(m.1);
-                        vr = vr.max(m.2);
                         if o == c {
                             acc[0].push(m.0, f as u32, &deg_bins, &nonorth_t);
                             acc[2].push(m.1, f as u32, &skew_bins, &skew_t);
                             acc[3].push(m.2, f as u32, &ratio_bins, &ratio_t);
+                            if inside(n) && n != c {
+                                cells[1] = n;
+                            }
                         }
+                        for &x in cells.iter().filter(|&&x| x != usize::MAX) {
+                            let j = x - base;
+                            o_no[j] = o_no[j].max(m.0);
+                            o_sk[j] = o_sk[j].max(m.1);
+                            o_vr[j] = o_vr[j].max(m.2);
+                        }
+                        (a, fc)
                     } else {
+                        let (a, fc) = polygon_area_centroid(pts, mesh.face(f));
                         let b = angle_deg(a, fc - centroid[o]);
-                        no = no.max(b);
+                        o_no[i] = o_no[i].max(b);
                         acc[1].push(b, f as u32, &deg_bins, &nonorth_t);
-                    }
-                    let l = a.length();
-                    if l > 0.0 {
-                        let dist = ((fc - x).dot(a) / l).abs();
-                        dmin = dmin.min(dist);
-                        dmax = dmax.max(dist);
+                        (a, fc)
+                    };
+                    for &x in cells.iter().filter(|&&x| x != usize::MAX) {
+                        if let Some(d) = dist(a, fc, x) {
+                            let j = x - base;
+                            dmin[j] = dmin[j].min(d);
+                            dmax[j] = dmax[j].max(d);
+                        }
                     }
                 }
-                let aspect = if dmin > 0.0 && dmin.is_finite() {
-                    (dmax / dmin).min(ASPECT_CAP)
+            }
+            for i in 0..len {
+                let c = base + i;
+                o_ar[i] = if dmin[i] > 0.0 && dmin[i].is_finite() {
+                    (dmax[i] / dmin[i]).min(ASPECT_CAP)
                 } else {
                     ASPECT_CAP
                 };
                 let h = cell_size(mesh.cell_level[c]);
-                (o_no[i], o_sk[i], o_vr[i]) = (no, sk, vr);
-                (o_fr[i], o_ar[i]) = (volume[c] / (h * h * h), aspect);
+                o_fr[i] = volume[c] / (h * h * h);
             }
             acc
         })
