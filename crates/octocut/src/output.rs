@@ -16,7 +16,9 @@ pub use octocut_writers::slice::AxisPlane;
 use octocut_writers::slice::{
     mesh_values, render_slice, slice_cells, ColourBy, SliceStyle, VolumeMeshCells,
 };
-use octocut_writers::{write_atomically, write_vtp, write_vtu, CellArray, Encoding};
+use octocut_writers::vtkxml::ValuesRef;
+use octocut_writers::vtu::write_vtu_refs;
+use octocut_writers::{write_atomically, write_vtp, CellArray, Encoding};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
@@ -53,14 +55,20 @@ pub fn write_outputs(
         let mut written = Vec::new();
         if want("vtu") {
             let p = dir.join("mesh.vtu");
-            write_vtu(&out.mesh, &cell_arrays(out), &p, encoding).map_err(|e| werr(&p, e))?;
+            // the quality arrays borrowed, not copied
+            let named = out.quality.per_cell.named();
+            let extra: Vec<(&str, ValuesRef)> =
+                named.iter().map(|&(n, v)| (n, ValuesRef::F64(v))).collect();
+            write_vtu_refs(&out.mesh, &extra, &p, encoding).map_err(|e| werr(&p, e))?;
             written.push(p);
         }
+        crate::pipeline::release_free_memory();
         if want("vtp") {
             let p = dir.join("boundary.vtp");
             write_vtp(&out.mesh, &p, encoding).map_err(|e| werr(&p, e))?;
             written.push(p);
         }
+        crate::pipeline::release_free_memory();
         if want("png") {
             written.extend(write_pictures(out, dir)?);
         }

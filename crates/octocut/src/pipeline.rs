@@ -347,10 +347,12 @@ impl Mesher {
         })?;
         let leaves = refined.tree.leaves().len() as u64;
         drop(refined);
+        release_free_memory();
         check()?;
         let mesh = cut.mesh;
         let validation = clock.run(hooks, Stage::Validate, "cells", || {
             let v = mesh.validate();
+            release_free_memory();
             let n = v.n_cells as u64;
             Ok::<_, MeshError>((v, n))
         })?;
@@ -370,6 +372,7 @@ impl Mesher {
         check()?;
         let q = clock.run(hooks, Stage::Quality, "faces", || {
             let q = quality(&mesh, |l| domain.cell_size(l));
+            release_free_memory();
             Ok::<_, MeshError>((q, mesh.n_faces() as u64))
         })?;
 
@@ -483,6 +486,22 @@ impl Mesher {
             warnings,
             stages: clock.figures,
             mesh_bytes: crate::report::mesh_bytes(mesh),
+        }
+    }
+}
+
+/// Hands the heap's free pages back to the kernel: glibc keeps memory freed by a big stage
+/// resident, so it would count in the next stages' peak memory and the process's. A no-op
+/// elsewhere than Linux with glibc.
+pub fn release_free_memory() {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    {
+        extern "C" {
+            fn malloc_trim(pad: usize) -> i32;
+        }
+        // SAFETY: glibc's malloc_trim(3) takes a byte count and has no other precondition
+        unsafe {
+            malloc_trim(0);
         }
     }
 }

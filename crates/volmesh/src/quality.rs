@@ -17,11 +17,15 @@
 //!   degenerate cell);
 //! - the worst (largest) of its faces' non-orthogonality, skewness and volume ratio.
 //!
-//! Cell centroids are volume-weighted ([`crate::geometry`]). Results do not depend on the
+//! Cell centroids are volume-weighted ([`crate::geometry`]). Nothing is stored per face (see
+//! [`quality`]); sums are taken per chunk of cells, then in order, so results do not depend on the
 //! thread count.
 
+#[cfg(test)]
 use crate::geometry::MeshGeometry;
+use crate::geometry::{cell_volume_centroid, polygon_area_centroid, CellFaces};
 use crate::mesh::VolumeMesh;
+use crate::validation::CHUNK;
 use octocut_surface::Vec3;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -37,20 +41,6 @@ pub const N_WORST: usize = 10;
 pub struct Histogram {
     pub edges: Vec<f64>,
     pub counts: Vec<u64>,
-}
-
-impl Histogram {
-    fn new(edges: &[f64], values: impl Iterator<Item = f64>) -> Histogram {
-        let mut counts = vec![0u64; edges.len()];
-        for v in values {
-            let i = edges.partition_point(|&e| e <= v).saturating_sub(1);
-            counts[i] += 1;
-        }
-        Histogram {
-            edges: edges.to_vec(),
-            counts,
-        }
-    }
 }
 
 /// Where a measure is at its worst.
@@ -142,20 +132,31 @@ fn angle_deg(a: Vec3, b: Vec3) -> f64 {
 }
 
 /// Non-orthogonality (degrees), skewness and volume ratio of interior face `f`.
+#[cfg(test)]
 fn interior_measures(mesh: &VolumeMesh, g: &MeshGeometry, f: usize) -> (f64, f64, f64) {
     let (o, n) = (mesh.owner[f] as usize, mesh.neighbour[f] as usize);
-    let (p, q) = (g.cell_centroid[o], g.cell_centroid[n]);
+    face_measures(
+        g.face_area[f],
+        g.face_centroid[f],
+        [g.cell_centroid[o], g.cell_centroid[n]],
+        [g.cell_volume[o], g.cell_volume[n]],
+    )
+}
+
+/// Non-orthogonality (degrees), skewness and volume ratio of an interior face of area vector
+/// `a` and centroid `fc` between cells of centroids `pq` and volumes `v`.
+fn face_measures(a: Vec3, fc: Vec3, pq: [Vec3; 2], v: [f64; 2]) -> (f64, f64, f64) {
+    let [p, q] = pq;
     let d = q - p;
-    let a = g.face_area[f];
     let nonorth = angle_deg(a, d);
     let dn = d.dot(a);
     let skew = if dn != 0.0 && d.length() > 0.0 {
-        let t = (g.face_centroid[f] - p).dot(a) / dn;
-        (g.face_centroid[f] - (p + t * d)).length() / d.length()
+        let t = (fc - p).dot(a) / dn;
+        (fc - (p + t * d)).length() / d.length()
     } else {
         f64::MAX
     };
-    let (vo, vn) = (g.cell_volume[o], g.cell_volume[n]);
+    let [vo, vn] = v;
     let ratio = if vo.min(vn) > 0.0 {
         vo.max(vn) / vo.min(vn)
     } else {
@@ -164,7 +165,146 @@ fn interior_measures(mesh: &VolumeMesh, g: &MeshGeometry, f: usize) -> (f64, f64
     (nonorth, skew, ratio)
 }
 
+/// Running figures of one face measure over a chunk of faces (merged in chunk order).
+#[derive(Clone, Debug)]
+struct Acc {
+    count: u64,
+    min: f64,
+    max: f64,
+    sum: f64,
+    counts: Vec<u64>,
+    flagged: u64,
+    /// The worst values with their face ids (at most [`N_WORST`], any order).
+    worst: Vec<(f64, u32)>,
+    /// Index in `worst` of its least bad value once `worst` is full.
+    least: usize,
+    above: bool,
+}
+
+impl Acc {
+    fn new(bins: usize, above: bool) -> Acc {
+        Acc {
+            count: 0,
+            min: f64::INFINITY,
+            max: f64::NEG_INFINITY,
+            sum: 0.0,
+            counts: vec![0; bins],
+            flagged: 0,
+            worst: Vec::with_capacity(N_WORST),
+            least: 0,
+            above,
+        }
+    }
+
+    /// True when `a` is worse than `b` (larger badness, ties by lower id).
+    fn worse(&self, a: (f64, u32), b: (f64, u32)) -> bool {
+        let bad = |v: f64| if self.above { v } else { -v };
+        bad(a.0).total_cmp(&bad(b.0)).then(b.1.cmp(&a.1)).is_gt()
+    }
+
+    fn keep_worst(&mut self, x: (f64, u32)) {
+        if self.worst.len() < N_WORST {
+            self.worst.push(x);
+            if self.worst.len() == N_WORST {
+                self.find_least();
+            }
+            return;
+        }
+        // replace the least bad kept value when `x` is worse
+        if self.worse(x, self.worst[self.least]) {
+            self.worst[self.least] = x;
+            self.find_least();
+        }
+    }
+
+    /// Points `least` at the least bad kept value.
+    fn find_least(&mut self) {
+        let mut least = 0;
+        for i in 1..self.worst.len() {
+            if self.worse(self.worst[least], self.worst[i]) {
+                least = i;
+            }
+        }
+        self.least = least;
+    }
+
+    fn push(&mut self, v: f64, id: u32, bins: &[f64], t: &Threshold) {
+        self.count += 1;
+        self.min = self.min.min(v);
+        self.max = self.max.max(v);
+        self.sum += v;
+        self.counts[bins.partition_point(|&e| e <= v).saturating_sub(1)] += 1;
+        self.flagged += flags(v, t) as u64;
+        self.keep_worst((v, id));
+    }
+
+    fn merge(&mut self, o: &Acc) {
+        self.count += o.count;
+        self.min = self.min.min(o.min);
+        self.max = self.max.max(o.max);
+        self.sum += o.sum;
+        for (a, b) in self.counts.iter_mut().zip(&o.counts) {
+            *a += b;
+        }
+        self.flagged += o.flagged;
+        for &x in &o.worst {
+            self.keep_worst(x);
+        }
+    }
+
+    fn finish(
+        mut self,
+        name: &str,
+        bins: &[f64],
+        threshold: Threshold,
+        place: impl Fn(usize, f64) -> Place,
+    ) -> MeasureStats {
+        let n = self.count;
+        if n == 0 {
+            (self.min, self.max) = (0.0, 0.0);
+        }
+        let mut worst = std::mem::take(&mut self.worst);
+        worst.sort_by(|&a, &b| {
+            if self.worse(a, b) {
+                std::cmp::Ordering::Less
+            } else {
+                std::cmp::Ordering::Greater
+            }
+        });
+        MeasureStats {
+            name: name.into(),
+            count: n,
+            min: self.min,
+            max: self.max,
+            mean: if n > 0 { self.sum / n as f64 } else { 0.0 },
+            histogram: Histogram {
+                edges: bins.to_vec(),
+                counts: self.counts,
+            },
+            worst: worst.iter().map(|&(v, i)| place(i as usize, v)).collect(),
+            threshold,
+            flagged: self.flagged,
+        }
+    }
+}
+
+/// True when the threshold flags `v` (beyond a relative slack of 1e-9).
+fn flags(v: f64, t: &Threshold) -> bool {
+    let slack = 1e-9 * t.value.abs();
+    if t.above {
+        v > t.value + slack
+    } else {
+        v < t.value - slack
+    }
+}
+
 /// Computes every measure; `cell_size(level)` is the edge of a full cube of that level.
+///
+/// Streams over the cells (two parallel passes in fixed chunks): the first keeps each cell's
+/// volume and centroid, the second computes every face's area vector and centroid on the fly
+/// from each of its cells, fills the per-cell arrays and gathers the face figures (each face
+/// counted once, by its owner); nothing is stored per face. Sums are taken per chunk, then
+/// over the chunks in order.
 ///
 /// ```
 /// use octocut_volmesh::{quality, testmesh};
@@ -174,124 +314,193 @@ fn interior_measures(mesh: &VolumeMesh, g: &MeshGeometry, f: usize) -> (f64, f64
 /// assert_eq!(q.volume_ratio.max, 1.0);
 /// ```
 pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> QualityReport {
-    let g = MeshGeometry::new(mesh);
     let ni = mesh.n_interior_faces();
-    let nf = mesh.n_faces();
-    let inner: Vec<(f64, f64, f64)> = (0..ni)
-        .into_par_iter()
-        .map(|f| interior_measures(mesh, &g, f))
-        .collect();
-    let bnd: Vec<f64> = (ni..nf)
-        .into_par_iter()
-        .map(|f| {
-            let o = mesh.owner[f] as usize;
-            angle_deg(g.face_area[f], g.face_centroid[f] - g.cell_centroid[o])
-        })
-        .collect();
-    let cells: Vec<(f64, f64, f64, f64, f64, f64)> = (0..mesh.n_cells())
-        .into_par_iter()
-        .map(|c| {
-            let (mut no, mut sk, mut vr) = (0.0f64, 0.0f64, 1.0f64);
-            let (mut dmin, mut dmax) = (f64::INFINITY, 0.0f64);
-            let x = g.cell_centroid[c];
-            for &f in g.cell_faces.of(c) {
-                let f = f as usize;
-                if f < ni {
-                    let m = inner[f];
-                    no = no.max(m.0);
-                    sk = sk.max(m.1);
-                    vr = vr.max(m.2);
-                } else {
-                    no = no.max(bnd[f - ni]);
-                }
-                let a = g.face_area[f];
-                let l = a.length();
-                if l > 0.0 {
-                    let dist = ((g.face_centroid[f] - x).dot(a) / l).abs();
-                    dmin = dmin.min(dist);
-                    dmax = dmax.max(dist);
-                }
+    let nc = mesh.n_cells();
+    let pts = &mesh.points;
+    let cf = CellFaces::new(mesh);
+    let mut volume = vec![0.0f64; nc];
+    let mut centroid = vec![Vec3::ZERO; nc];
+    volume
+        .par_chunks_mut(CHUNK)
+        .zip(centroid.par_chunks_mut(CHUNK))
+        .enumerate()
+        .for_each(|(k, (vs, cs))| {
+            for (i, (v, x)) in vs.iter_mut().zip(cs.iter_mut()).enumerate() {
+                let c = k * CHUNK + i;
+                let g = cell_volume_centroid(mesh, c as u32, cf.of(c));
+                (*v, *x) = (g.volume, g.centroid);
             }
-            let aspect = if dmin > 0.0 && dmin.is_finite() {
-                (dmax / dmin).min(ASPECT_CAP)
-            } else {
-                ASPECT_CAP
-            };
-            let h = cell_size(mesh.cell_level[c]);
-            let frac = g.cell_volume[c] / (h * h * h);
-            (no, sk, vr, frac, aspect, 0.0)
-        })
-        .collect();
-
-    let face_place = |f: usize, value: f64| Place {
-        value,
-        face: Some(f as u32),
-        cell: mesh.owner[f],
-        other_cell: mesh.neighbour.get(f).copied(),
-        at: g.face_centroid[f],
-    };
-    let cell_place = |c: usize, value: f64| Place {
-        value,
-        face: None,
-        cell: c as u32,
-        other_cell: None,
-        at: g.cell_centroid[c],
-    };
+        });
 
     let deg_bins: Vec<f64> = (0..18).map(|i| 5.0 * i as f64).collect();
     let skew_bins: Vec<f64> = (0..20).map(|i| 0.05 * i as f64).collect();
     let ratio_bins = [1.0, 1.5, 2.0, 4.0, 8.0, 8.0 + 1e-9, 16.0, 32.0, 64.0, 128.0];
     let frac_bins: Vec<f64> = (0..11).map(|i| 0.1 * i as f64).collect();
     let aspect_bins = [1.0, 1.5, 2.0, 3.0, 5.0, 10.0, 20.0, 50.0, 100.0, 1000.0];
-
     let nonorth_t = Threshold {
         value: 70.0,
         above: true,
         source: "common practice (from memory): faces above 70 degrees are commonly flagged".into(),
     };
+    let skew_t = Threshold {
+        value: 0.5,
+        above: true,
+        source: "our choice: no published limit is known to us for this normalisation \
+                 (intersection offset of half the centroid distance)"
+            .into(),
+    };
+    let ratio_t = Threshold {
+        value: 8.0,
+        above: true,
+        source: "exact: 8 is the largest ratio of two uncut cells of a 2:1 balanced octree".into(),
+    };
+
+    let mut pc = CellQuality {
+        non_orthogonality: vec![0.0; nc],
+        skewness: vec![0.0; nc],
+        volume_ratio: vec![0.0; nc],
+        cut_fraction: vec![0.0; nc],
+        aspect_ratio: vec![0.0; nc],
+    };
+    let accs: Vec<[Acc; 4]> = (
+        pc.non_orthogonality.par_chunks_mut(CHUNK),
+        pc.skewness.par_chunks_mut(CHUNK),
+        pc.volume_ratio.par_chunks_mut(CHUNK),
+        pc.cut_fraction.par_chunks_mut(CHUNK),
+        pc.aspect_ratio.par_chunks_mut(CHUNK),
+    )
+        .into_par_iter()
+        .enumerate()
+        .map(|(k, (o_no, o_sk, o_vr, o_fr, o_ar))| {
+            // interior non-orthogonality, boundary non-orthogonality, skewness, volume ratio
+            let mut acc = [
+                Acc::new(deg_bins.len(), true),
+                Acc::new(deg_bins.len(), true),
+                Acc::new(skew_bins.len(), true),
+                Acc::new(ratio_bins.len(), true),
+            ];
+            // worst face values and plane distances of the chunk's cells; a face between two
+            // cells of the chunk is computed once, by its owner, for both
+            let base = k * CHUNK;
+            let len = o_no.len();
+            let inside = |c: usize| (base..base + len).contains(&c);
+            let mut dmin = vec![f64::INFINITY; len];
+            let mut dmax = vec![0.0f64; len];
+            o_no.fill(0.0);
+            o_sk.fill(0.0);
+            o_vr.fill(1.0);
+            let dist = |a: Vec3, fc: Vec3, c: usize| {
+                let l = a.length();
+                (l > 0.0).then(|| ((fc - centroid[c]).dot(a) / l).abs())
+            };
+            for i in 0..len {
+                let c = base + i;
+                for &f in cf.of(c) {
+                    let f = f as usize;
+                    let o = mesh.owner[f] as usize;
+                    let mut cells = [c, usize::MAX];
+                    let (a, fc) = if f < ni {
+                        let n = mesh.neighbour[f] as usize;
+                        if o != c && inside(o) {
+                            continue; // done from its owner
+                        }
+                        let (a, fc) = polygon_area_centroid(pts, mesh.face(f));
+                        let m = face_measures(
+                            a,
+                            fc,
+                            [centroid[o], centroid[n]],
+                            [volume[o], volume[n]],
+                        );
+                        if o == c {
+                            acc[0].push(m.0, f as u32, &deg_bins, &nonorth_t);
+                            acc[2].push(m.1, f as u32, &skew_bins, &skew_t);
+                            acc[3].push(m.2, f as u32, &ratio_bins, &ratio_t);
+                            if inside(n) && n != c {
+                                cells[1] = n;
+                            }
+                        }
+                        for &x in cells.iter().filter(|&&x| x != usize::MAX) {
+                            let j = x - base;
+                            o_no[j] = o_no[j].max(m.0);
+                            o_sk[j] = o_sk[j].max(m.1);
+                            o_vr[j] = o_vr[j].max(m.2);
+                        }
+                        (a, fc)
+                    } else {
+                        let (a, fc) = polygon_area_centroid(pts, mesh.face(f));
+                        let b = angle_deg(a, fc - centroid[o]);
+                        o_no[i] = o_no[i].max(b);
+                        acc[1].push(b, f as u32, &deg_bins, &nonorth_t);
+                        (a, fc)
+                    };
+                    for &x in cells.iter().filter(|&&x| x != usize::MAX) {
+                        if let Some(d) = dist(a, fc, x) {
+                            let j = x - base;
+                            dmin[j] = dmin[j].min(d);
+                            dmax[j] = dmax[j].max(d);
+                        }
+                    }
+                }
+            }
+            for i in 0..len {
+                let c = base + i;
+                o_ar[i] = if dmin[i] > 0.0 && dmin[i].is_finite() {
+                    (dmax[i] / dmin[i]).min(ASPECT_CAP)
+                } else {
+                    ASPECT_CAP
+                };
+                let h = cell_size(mesh.cell_level[c]);
+                o_fr[i] = volume[c] / (h * h * h);
+            }
+            acc
+        })
+        .collect();
+    drop(cf);
+    let mut total = [
+        Acc::new(deg_bins.len(), true),
+        Acc::new(deg_bins.len(), true),
+        Acc::new(skew_bins.len(), true),
+        Acc::new(ratio_bins.len(), true),
+    ];
+    for a in &accs {
+        for (t, x) in total.iter_mut().zip(a) {
+            t.merge(x);
+        }
+    }
+    let [t_no, t_bnd, t_sk, t_vr] = total;
+
+    let face_place = |f: usize, value: f64| Place {
+        value,
+        face: Some(f as u32),
+        cell: mesh.owner[f],
+        other_cell: mesh.neighbour.get(f).copied(),
+        at: polygon_area_centroid(pts, mesh.face(f)).1,
+    };
+    let cell_place = |c: usize, value: f64| Place {
+        value,
+        face: None,
+        cell: c as u32,
+        other_cell: None,
+        at: centroid[c],
+    };
     QualityReport {
-        non_orthogonality: stats(
+        non_orthogonality: t_no.finish(
             "non_orthogonality",
-            inner.iter().map(|m| m.0).collect(),
             &deg_bins,
             nonorth_t.clone(),
-            &face_place,
+            face_place,
         ),
-        boundary_non_orthogonality: stats(
+        boundary_non_orthogonality: t_bnd.finish(
             "boundary_non_orthogonality",
-            bnd.clone(),
             &deg_bins,
             nonorth_t,
-            |i, v| face_place(i + ni, v),
+            face_place,
         ),
-        skewness: stats(
-            "skewness",
-            inner.iter().map(|m| m.1).collect(),
-            &skew_bins,
-            Threshold {
-                value: 0.5,
-                above: true,
-                source: "our choice: no published limit is known to us for this normalisation \
-                         (intersection offset of half the centroid distance)"
-                    .into(),
-            },
-            &face_place,
-        ),
-        volume_ratio: stats(
-            "volume_ratio",
-            inner.iter().map(|m| m.2).collect(),
-            &ratio_bins,
-            Threshold {
-                value: 8.0,
-                above: true,
-                source: "exact: 8 is the largest ratio of two uncut cells of a 2:1 balanced octree"
-                    .into(),
-            },
-            &face_place,
-        ),
+        skewness: t_sk.finish("skewness", &skew_bins, skew_t, face_place),
+        volume_ratio: t_vr.finish("volume_ratio", &ratio_bins, ratio_t, face_place),
         cut_fraction: stats(
             "cut_fraction",
-            cells.iter().map(|c| c.3).collect(),
+            &pc.cut_fraction,
             &frac_bins,
             Threshold {
                 value: 0.1,
@@ -300,81 +509,47 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
                          cell are merged or flagged"
                     .into(),
             },
-            &cell_place,
+            cell_place,
         ),
         aspect_ratio: stats(
             "aspect_ratio",
-            cells.iter().map(|c| c.4).collect(),
+            &pc.aspect_ratio,
             &aspect_bins,
             Threshold {
                 value: 20.0,
                 above: true,
                 source: "our choice".into(),
             },
-            &cell_place,
+            cell_place,
         ),
-        per_cell: CellQuality {
-            non_orthogonality: cells.iter().map(|c| c.0).collect(),
-            skewness: cells.iter().map(|c| c.1).collect(),
-            volume_ratio: cells.iter().map(|c| c.2).collect(),
-            cut_fraction: cells.iter().map(|c| c.3).collect(),
-            aspect_ratio: cells.iter().map(|c| c.4).collect(),
-        },
+        per_cell: pc,
     }
 }
 
+/// Figures of a per-cell measure (ids are cell ids); sums per chunk, then in order.
 fn stats(
     name: &str,
-    values: Vec<f64>,
+    values: &[f64],
     bins: &[f64],
     threshold: Threshold,
     place: impl Fn(usize, f64) -> Place,
 ) -> MeasureStats {
-    let n = values.len();
-    let (mut min, mut max, mut sum) = (f64::INFINITY, f64::NEG_INFINITY, 0.0);
-    for &v in &values {
-        min = min.min(v);
-        max = max.max(v);
-        sum += v;
-    }
-    if n == 0 {
-        (min, max) = (0.0, 0.0);
-    }
-    let flagged = values
-        .iter()
-        .filter(|&&v| {
-            let slack = 1e-9 * threshold.value.abs();
-            if threshold.above {
-                v > threshold.value + slack
-            } else {
-                v < threshold.value - slack
+    let parts: Vec<Acc> = values
+        .par_chunks(CHUNK)
+        .enumerate()
+        .map(|(k, vs)| {
+            let mut a = Acc::new(bins.len(), threshold.above);
+            for (i, &v) in vs.iter().enumerate() {
+                a.push(v, (k * CHUNK + i) as u32, bins, &threshold);
             }
+            a
         })
-        .count() as u64;
-    let mut order: Vec<usize> = (0..n).collect();
-    let bad = |v: f64| if threshold.above { v } else { -v };
-    let worse = |a: &usize, b: &usize| bad(values[*b]).total_cmp(&bad(values[*a])).then(a.cmp(b));
-    if n > N_WORST {
-        order.select_nth_unstable_by(N_WORST, worse);
-        order.truncate(N_WORST);
-    }
-    order.sort_by(worse);
-    let worst = order
-        .iter()
-        .take(N_WORST)
-        .map(|&i| place(i, values[i]))
         .collect();
-    MeasureStats {
-        name: name.into(),
-        count: n as u64,
-        min,
-        max,
-        mean: if n > 0 { sum / n as f64 } else { 0.0 },
-        histogram: Histogram::new(bins, values.iter().copied()),
-        worst,
-        threshold,
-        flagged,
+    let mut total = Acc::new(bins.len(), threshold.above);
+    for p in &parts {
+        total.merge(p);
     }
+    total.finish(name, bins, threshold, place)
 }
 
 #[cfg(test)]
@@ -466,6 +641,42 @@ mod tests {
                 assert!(q.per_cell.volume_ratio[c] <= 8.0 + 1e-12);
             }
             assert!(q.non_orthogonality.flagged == 0 && q.skewness.flagged == 0);
+        }
+    }
+
+    #[test]
+    fn streamed_figures_match_a_direct_computation() {
+        // more cells and faces than a chunk, hanging faces in several chunks
+        let refine: Vec<[u32; 3]> = (0..17).map(|i| [i, (3 * i) % 17, (5 * i) % 17]).collect();
+        let m = testmesh::refined_block(17, 1.0 / 17.0, &refine);
+        assert!(m.n_cells() > CHUNK && m.n_interior_faces() > 2 * CHUNK);
+        let size = |l: u8| 1.0 / 17.0 / (1u32 << l) as f64;
+        let q = quality(&m, size);
+        let one = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
+        assert_eq!(one.install(|| quality(&m, size)), q);
+        // the same figures from the stored geometry, face by face
+        let g = MeshGeometry::new(&m);
+        let ni = m.n_interior_faces();
+        let mut all: Vec<(f64, usize)> = (0..ni)
+            .map(|f| (interior_measures(&m, &g, f).1, f))
+            .collect();
+        let mean = all.iter().map(|x| x.0).sum::<f64>() / ni as f64;
+        assert!((q.skewness.mean - mean).abs() <= 1e-12 * mean);
+        assert!(q.skewness.max > 0.1); // hanging faces are skewed (see hanging_face_figures)
+        all.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+        let want: Vec<u32> = all[..N_WORST].iter().map(|x| x.1 as u32).collect();
+        let got: Vec<u32> = q.skewness.worst.iter().map(|p| p.face.unwrap()).collect();
+        assert_eq!(got, want);
+        assert_eq!(q.skewness.histogram.counts.iter().sum::<u64>(), ni as u64);
+        assert_eq!(q.skewness.max, all[0].0);
+        let w = &q.skewness.worst[0];
+        assert_eq!(w.at, g.face_centroid[w.face.unwrap() as usize]);
+        for c in 0..m.n_cells() {
+            let h = size(m.cell_level[c]);
+            assert_eq!(q.per_cell.cut_fraction[c], g.cell_volume[c] / (h * h * h));
         }
     }
 

@@ -12,14 +12,16 @@
 //!   positive (divergence theorem, see [`crate::geometry`]);
 //! - no T-junctions: combinatorially, every directed edge of a cell's outward faces is matched
 //!   by its reverse in the same cell (a closed oriented 2-manifold, common practice); and
-//!   geometrically, no mesh vertex lies inside an edge of a face (spatial hash of the points,
-//!   relative tolerance `1e-9` of the edge length);
+//!   geometrically, no mesh vertex lies inside an edge of a face (points binned on a uniform
+//!   grid, relative tolerance `1e-9` of the edge length);
 //! - the sum of cell volumes equals the volume enclosed by the boundary faces (divergence
 //!   theorem over the boundary) within `1e-9` relative.
 //!
 //! When the arrays are inconsistent the geometric checks are skipped (`geometry_checked` is
-//! false). Work is parallel over cells, faces and edges; sums are taken sequentially over
-//! per-item values so the report is identical at any thread count.
+//! false). Lean and parallel: nothing is stored per face but u32 CSR buckets (faces by smallest
+//! vertex for duplicates; edges by lower end point, a slab at a time, for T-junctions); cells,
+//! faces and points are checked in fixed chunks of [`CHUNK`] and sums are taken per chunk, then
+//! over the chunks in order, so the report is identical at any thread count.
 
 use crate::geometry::{cell_volume_centroid, polygon_area_centroid, CellFaces};
 use crate::mesh::VolumeMesh;
@@ -29,6 +31,13 @@ use serde::{Deserialize, Serialize};
 
 /// Relative tolerance of the closure, volume and on-edge checks.
 pub const REL_TOL: f64 = 1e-9;
+
+/// Items (faces, cells, points) per unit of parallel work; sums are taken per chunk, then over
+/// the chunks in order, so the report does not depend on the thread count.
+pub const CHUNK: usize = 4096;
+
+/// Edge occurrences held at once by the T-junction check (4 bytes each), or a quarter of all.
+const SLAB: usize = 1 << 22;
 
 /// One defect of a mesh.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -170,24 +179,28 @@ impl VolumeMesh {
         self.check_duplicate_faces(&mut rep.problems);
         self.check_duplicate_points(&mut rep.problems);
 
-        // per cell: closure, volume, directed edges
+        // per cell: closure, volume, directed edges; volumes summed per chunk, chunks in order
         let cf = CellFaces::new(self);
-        let per_cell: Vec<(f64, Vec<Problem>)> = (0..self.n_cells())
+        let nc = self.n_cells();
+        let per_chunk: Vec<(f64, Vec<Problem>)> = (0..nc.div_ceil(CHUNK))
             .into_par_iter()
-            .map_init(Vec::new, |edges, c| {
-                self.check_cell(c as u32, cf.of(c), edges)
+            .map(|k| {
+                let (mut edges, mut probs, mut vol) = (Vec::new(), Vec::new(), 0.0);
+                for c in k * CHUNK..((k + 1) * CHUNK).min(nc) {
+                    vol += self.check_cell(c as u32, cf.of(c), &mut edges, &mut probs);
+                }
+                (vol, probs)
             })
             .collect();
-        let mut cells_volume = 0.0;
-        for (v, probs) in per_cell {
-            cells_volume += v;
+        drop(cf);
+        for (v, probs) in per_chunk {
+            rep.cells_volume += v;
             rep.problems.extend(probs);
         }
-        rep.cells_volume = cells_volume;
 
         self.check_vertices_on_edges(&mut rep.problems);
 
-        // boundary: enclosed volume and patch areas
+        // boundary: enclosed volume and patch areas, summed per chunk of faces, chunks in order
         let bbox = Aabb::from_points(self.points.iter().copied());
         let r = if bbox.is_empty() {
             Vec3::ZERO
@@ -195,19 +208,14 @@ impl VolumeMesh {
             bbox.center()
         };
         let nb = self.n_interior_faces()..self.n_faces();
-        let per_face: Vec<(f64, f64)> = nb
-            .clone()
-            .into_par_iter()
-            .map(|f| {
-                let (a, _) = polygon_area_centroid(&self.points, self.face(f));
-                (fan_volume(&self.points, self.face(f), r), a.length())
-            })
-            .collect();
-        rep.boundary_volume = per_face.iter().map(|x| x.0).sum();
+        rep.boundary_volume =
+            chunked_sum(nb.clone(), |f| fan_volume(&self.points, self.face(f), r));
         for p in &self.patches {
-            let lo = (p.start as usize).clamp(nb.start, nb.end) - nb.start;
-            let hi = (p.start as usize + p.count as usize).clamp(nb.start, nb.end) - nb.start;
-            let area = per_face[lo..hi.max(lo)].iter().map(|x| x.1).sum();
+            let lo = (p.start as usize).clamp(nb.start, nb.end);
+            let hi = (p.start as usize + p.count as usize).clamp(nb.start, nb.end);
+            let area = chunked_sum(lo..hi.max(lo), |f| {
+                polygon_area_centroid(&self.points, self.face(f)).0.length()
+            });
             rep.patch_areas.push(PatchArea {
                 name: p.name.clone(),
                 faces: p.count,
@@ -286,56 +294,62 @@ impl VolumeMesh {
     fn check_faces(&self, out: &mut Vec<Problem>) {
         let np = self.points.len() as u32;
         let nc = self.n_cells() as u32;
-        let per_face: Vec<Vec<Problem>> = (0..self.n_faces())
+        let nf = self.n_faces();
+        let per_chunk: Vec<Vec<Problem>> = (0..nf.div_ceil(CHUNK))
             .into_par_iter()
-            .map_init(Vec::new, |sorted: &mut Vec<u32>, f| {
-                let mut probs = Vec::new();
-                let vs = self.face(f);
-                let fu = f as u32;
-                let mut in_range = true;
-                for &v in vs {
-                    if v >= np {
-                        probs.push(Problem::VertexOutOfRange {
-                            face: fu,
-                            vertex: v,
-                        });
-                        in_range = false;
+            .map(|k| {
+                let (mut probs, mut sorted) = (Vec::new(), Vec::new());
+                for f in k * CHUNK..((k + 1) * CHUNK).min(nf) {
+                    let vs = self.face(f);
+                    let fu = f as u32;
+                    let mut in_range = true;
+                    for &v in vs {
+                        if v >= np {
+                            probs.push(Problem::VertexOutOfRange {
+                                face: fu,
+                                vertex: v,
+                            });
+                            in_range = false;
+                        }
                     }
-                }
-                let o = self.owner[f];
-                let n = self.neighbour.get(f).copied();
-                for c in std::iter::once(o).chain(n) {
-                    if c >= nc {
-                        probs.push(Problem::CellOutOfRange { face: fu, cell: c });
+                    let o = self.owner[f];
+                    let n = self.neighbour.get(f).copied();
+                    for c in std::iter::once(o).chain(n) {
+                        if c >= nc {
+                            probs.push(Problem::CellOutOfRange { face: fu, cell: c });
+                        }
                     }
-                }
-                if !in_range {
-                    return probs;
-                }
-                let at = vertex_average(&self.points, vs);
-                sorted.clear();
-                sorted.extend_from_slice(vs);
-                sorted.sort_unstable();
-                sorted.dedup();
-                if sorted.len() < 3 || sorted.len() != vs.len() {
-                    probs.push(Problem::DegenerateFace {
-                        face: fu,
-                        vertices: vs.len() as u32,
-                        distinct: sorted.len() as u32,
-                        at,
-                    });
-                }
-                if n == Some(o) {
-                    probs.push(Problem::OwnerIsNeighbour {
-                        face: fu,
-                        cell: o,
-                        at,
-                    });
+                    if !in_range {
+                        continue;
+                    }
+                    sorted.clear();
+                    sorted.extend_from_slice(vs);
+                    sorted.sort_unstable();
+                    sorted.dedup();
+                    let degenerate = sorted.len() < 3 || sorted.len() != vs.len();
+                    if degenerate || n == Some(o) {
+                        let at = vertex_average(&self.points, vs);
+                        if degenerate {
+                            probs.push(Problem::DegenerateFace {
+                                face: fu,
+                                vertices: vs.len() as u32,
+                                distinct: sorted.len() as u32,
+                                at,
+                            });
+                        }
+                        if n == Some(o) {
+                            probs.push(Problem::OwnerIsNeighbour {
+                                face: fu,
+                                cell: o,
+                                at,
+                            });
+                        }
+                    }
                 }
                 probs
             })
             .collect();
-        out.extend(per_face.into_iter().flatten());
+        out.extend(per_chunk.into_iter().flatten());
     }
 
     fn check_patches(&self, out: &mut Vec<Problem>) {
@@ -370,47 +384,88 @@ impl VolumeMesh {
     }
 
     fn check_duplicate_faces(&self, out: &mut Vec<Problem>) {
-        // sort faces by a hash of their sorted vertex set; equal hashes are compared exactly
-        let sorted = |f: usize, buf: &mut Vec<u32>| {
+        // Equal vertex sets have equal smallest vertices: bucket the faces by their smallest
+        // vertex (CSR of u32, faces ascending within a bucket), then within a bucket sort by a
+        // hash of the sorted vertex set and compare equal hashes exactly.
+        let np = self.points.len();
+        let nf = self.n_faces();
+        let mut start = vec![0u32; np + 1];
+        let mut empty: Vec<u32> = Vec::new();
+        for f in 0..nf {
+            match self.face(f).iter().min() {
+                Some(&v) => start[v as usize + 1] += 1,
+                None => empty.push(f as u32),
+            }
+        }
+        for v in 0..np {
+            start[v + 1] += start[v];
+        }
+        let mut faces = vec![0u32; start[np] as usize];
+        for f in 0..nf {
+            if let Some(&v) = self.face(f).iter().min() {
+                faces[start[v as usize] as usize] = f as u32;
+                start[v as usize] += 1;
+            }
+        }
+        // start[v] now ends bucket v: shift back to starts
+        for v in (1..=np).rev() {
+            start[v] = start[v - 1];
+        }
+        start[0] = 0;
+        let sorted = |f: u32, buf: &mut Vec<u32>| {
             buf.clear();
-            buf.extend_from_slice(self.face(f));
+            buf.extend_from_slice(self.face(f as usize));
             buf.sort_unstable();
         };
-        let mut keys: Vec<(u64, u32)> = (0..self.n_faces())
+        let mut found: Vec<(u32, u32)> = (0..np.div_ceil(CHUNK))
             .into_par_iter()
-            .map_init(Vec::new, |buf, f| {
-                sorted(f, buf);
-                // FNV-1a over the sorted ids (any fixed hash works: collisions are re-checked)
-                let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-                for &v in buf.iter() {
-                    h = (h ^ v as u64).wrapping_mul(0x0100_0000_01b3);
-                }
-                (h, f as u32)
-            })
-            .collect();
-        keys.par_sort_unstable();
-        let mut found = Vec::new();
-        let (mut x, mut y) = (Vec::new(), Vec::new());
-        let mut i = 0;
-        while i < keys.len() {
-            let mut j = i + 1;
-            while j < keys.len() && keys[j].0 == keys[i].0 {
-                j += 1;
-            }
-            // within a group of equal hashes (ascending face ids), report each face against
-            // the lowest earlier face with the same vertex set
-            for k in i + 1..j {
-                sorted(keys[k].1 as usize, &mut x);
-                for &(_, other) in &keys[i..k] {
-                    sorted(other as usize, &mut y);
-                    if x == y {
-                        found.push((keys[k].1, other));
-                        break;
+            .flat_map_iter(|k| {
+                let mut local = Vec::new();
+                let mut keys: Vec<(u64, u32)> = Vec::new();
+                let (mut x, mut y) = (Vec::new(), Vec::new());
+                for v in k * CHUNK..((k + 1) * CHUNK).min(np) {
+                    let bucket = &faces[start[v] as usize..start[v + 1] as usize];
+                    if bucket.len() < 2 {
+                        continue;
+                    }
+                    keys.clear();
+                    for &f in bucket {
+                        sorted(f, &mut x);
+                        // FNV-1a over the sorted ids (any fixed hash works: collisions are
+                        // re-checked)
+                        let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+                        for &v in x.iter() {
+                            h = (h ^ v as u64).wrapping_mul(0x0100_0000_01b3);
+                        }
+                        keys.push((h, f));
+                    }
+                    keys.sort_unstable();
+                    let mut i = 0;
+                    while i < keys.len() {
+                        let mut j = i + 1;
+                        while j < keys.len() && keys[j].0 == keys[i].0 {
+                            j += 1;
+                        }
+                        // within a group of equal hashes (ascending face ids), report each
+                        // face against the lowest earlier face with the same vertex set
+                        for k in i + 1..j {
+                            sorted(keys[k].1, &mut x);
+                            for &(_, other) in &keys[i..k] {
+                                sorted(other, &mut y);
+                                if x == y {
+                                    local.push((keys[k].1, other));
+                                    break;
+                                }
+                            }
+                        }
+                        i = j;
                     }
                 }
-            }
-            i = j;
-        }
+                local
+            })
+            .collect();
+        // faces without vertices: all share the empty vertex set
+        found.extend(empty.iter().skip(1).map(|&f| (f, empty[0])));
         found.sort_unstable();
         for (face, other) in found {
             let at = vertex_average(&self.points, self.face(face as usize));
@@ -426,16 +481,18 @@ impl VolumeMesh {
             let b = (x + 0.0).to_bits() as i64;
             (b ^ ((((b >> 63) as u64) >> 1) as i64)) as u64 ^ (1 << 63)
         };
-        let mut order: Vec<([u64; 3], u32)> = (0..pts.len())
-            .into_par_iter()
-            .map(|i| ([key(pts[i].x), key(pts[i].y), key(pts[i].z)], i as u32))
-            .collect();
-        order.par_sort_unstable();
+        let key3 = |i: u32| {
+            let p = pts[i as usize];
+            [key(p.x), key(p.y), key(p.z)]
+        };
+        // point ids sorted by (coordinates, id): 4 bytes a point
+        let mut order: Vec<u32> = (0..pts.len() as u32).collect();
+        order.par_sort_unstable_by(|&a, &b| key3(a).cmp(&key3(b)).then(a.cmp(&b)));
         let mut found = Vec::new();
         let mut first = 0;
         for i in 1..order.len() {
-            if order[i].0 == order[first].0 {
-                found.push((order[i].1, order[first].1));
+            if key3(order[i]) == key3(order[first]) {
+                found.push((order[i], order[first]));
             } else {
                 first = i;
             }
@@ -450,17 +507,18 @@ impl VolumeMesh {
         }
     }
 
-    /// Closure, volume and directed-edge matching of one cell; returns its volume.
+    /// Closure, volume and directed-edge matching of one cell; pushes its problems to
+    /// `probs` and returns its volume.
     fn check_cell(
         &self,
         c: u32,
         faces: &[u32],
         edges: &mut Vec<(u64, i32)>,
-    ) -> (f64, Vec<Problem>) {
-        let mut probs = Vec::new();
+        probs: &mut Vec<Problem>,
+    ) -> f64 {
         if faces.is_empty() {
             probs.push(Problem::EmptyCell { cell: c });
-            return (0.0, probs);
+            return 0.0;
         }
         let g = cell_volume_centroid(self, c, faces);
         let residual = g.area_sum.length();
@@ -513,108 +571,232 @@ impl VolumeMesh {
                 });
             }
         }
-        (g.volume, probs)
+        g.volume
     }
 
     /// Geometric T-junction check: points lying strictly inside an edge of some face.
+    ///
+    /// The unique undirected edges are enumerated by their lower end point, a slab of lower
+    /// end points at a time: per slab, a CSR of the upper end points (u32) filled from every
+    /// face, each row sorted and deduplicated in place. Points are binned on a uniform grid
+    /// (sorted `(bin, point)` pairs); every edge tests the points of the bins its box
+    /// (widened by the tolerance) touches. The grid spacing only affects speed.
     fn check_vertices_on_edges(&self, out: &mut Vec<Problem>) {
+        self.vertices_on_edges(out, SLAB)
+    }
+
+    /// [`Self::check_vertices_on_edges`] holding at most `slab` edge occurrences at once, or a
+    /// quarter of them when that is more (each slab scans every face).
+    fn vertices_on_edges(&self, out: &mut Vec<Problem>, slab: usize) {
         let pts = &self.points;
-        // unique undirected edges
-        let mut edges: Vec<u64> = (0..self.n_faces())
-            .into_par_iter()
-            .flat_map_iter(|f| {
-                let vs = self.face(f);
-                (0..vs.len()).map(move |i| {
-                    let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
-                    (a.min(b) as u64) << 32 | a.max(b) as u64
-                })
-            })
-            .collect();
-        edges.par_sort_unstable();
-        edges.dedup();
-        if edges.is_empty() || pts.is_empty() {
+        let np = pts.len();
+        let nf = self.n_faces();
+        if np == 0 || self.face_vertices.is_empty() {
             return;
         }
-        // grid spacing: the median edge length; origin shifted half a cell so that lattice
-        // points sit at cell centres
-        let mut lens: Vec<f64> = edges
-            .par_iter()
-            .map(|&k| (pts[(k >> 32) as usize] - pts[k as u32 as usize]).length())
-            .collect();
-        let mid = lens.len() / 2;
-        let (_, med, _) = lens.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
+        let lower = |vs: &[u32], i: usize| {
+            let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
+            (a.min(b), a.max(b))
+        };
+        // edge occurrences per lower end point
+        let mut count = vec![0u32; np];
+        for f in 0..nf {
+            let vs = self.face(f);
+            for i in 0..vs.len() {
+                count[lower(vs, i).0 as usize] += 1;
+            }
+        }
+        // grid spacing: the median length of a deterministic sample of edges (the first edge
+        // of every `step`-th face), at least 2^-20 of the box diagonal; origin shifted half a
+        // cell so that lattice points sit at cell centres
         let bbox = Aabb::from_points(pts.iter().copied());
-        let g = if *med > 0.0 && med.is_finite() {
-            *med
+        let step = (nf / 65536).max(1);
+        let mut lens: Vec<f64> = (0..nf)
+            .step_by(step)
+            .filter(|&f| !self.face(f).is_empty())
+            .map(|f| {
+                let (a, b) = lower(self.face(f), 0);
+                (pts[b as usize] - pts[a as usize]).length()
+            })
+            .collect();
+        let diag = bbox.diagonal();
+        let g = if lens.is_empty() {
+            0.0
         } else {
-            bbox.diagonal().max(1.0)
+            let mid = lens.len() / 2;
+            *lens.select_nth_unstable_by(mid, |a, b| a.total_cmp(b)).1
+        };
+        let g = if g > 0.0 && g.is_finite() {
+            g.max(diag * (-20f64).exp2())
+        } else {
+            diag.max(1.0)
         };
         let origin = bbox.min - Vec3::splat(0.5 * g);
+        // floor without a libm call (x86-64 without SSE4.1 has no rounding instruction)
+        let floor = |x: f64| {
+            let t = x as i64;
+            t - ((t as f64) > x) as i64
+        };
         let cell_of = |p: Vec3| -> [i64; 3] {
             let q = (p - origin) / g;
-            [q.x.floor() as i64, q.y.floor() as i64, q.z.floor() as i64]
+            [floor(q.x), floor(q.y), floor(q.z)]
         };
         let ext = cell_of(bbox.max);
         let (nx, ny) = (ext[0] + 1, ext[1] + 1);
         let key = |c: [i64; 3]| ((c[2] * ny + c[1]) * nx + c[0]) as u64;
-        let mut binned: Vec<(u64, u32)> = (0..pts.len())
+        let mut binned: Vec<(u64, u32)> = (0..np)
             .into_par_iter()
             .map(|i| (key(cell_of(pts[i])), i as u32))
             .collect();
         binned.par_sort_unstable();
-        let bin_keys: Vec<u64> = binned.iter().map(|b| b.0).collect();
-        let found: Vec<Vec<Problem>> = edges
-            .par_iter()
-            .map(|&k| {
-                let (a, b) = ((k >> 32) as u32, k as u32);
-                let (pa, pb) = (pts[a as usize], pts[b as usize]);
-                let d = pb - pa;
-                let l2 = d.length_squared();
-                let mut probs = Vec::new();
-                if l2 == 0.0 || !l2.is_finite() {
-                    return probs;
-                }
-                let tol = REL_TOL * l2.sqrt();
-                let lo = cell_of(pa.min(pb) - Vec3::splat(tol)).map(|v| v.max(0));
-                let hi = cell_of(pa.max(pb) + Vec3::splat(tol));
-                let hi = [hi[0].min(ext[0]), hi[1].min(ext[1]), hi[2].min(ext[2])];
-                for z in lo[2]..=hi[2] {
-                    for y in lo[1]..=hi[1] {
-                        for x in lo[0]..=hi[0] {
-                            let kk = key([x, y, z]);
-                            let s = bin_keys.partition_point(|&q| q < kk);
-                            for &(q, v) in &binned[s..] {
-                                if q != kk {
-                                    break;
-                                }
-                                if v == a || v == b {
-                                    continue;
-                                }
-                                let p = pts[v as usize];
-                                let t = (p - pa).dot(d) / l2;
-                                if t <= REL_TOL || t >= 1.0 - REL_TOL {
-                                    continue;
-                                }
-                                if (p - (pa + t * d)).length_squared() <= tol * tol {
-                                    probs.push(Problem::VertexOnEdge {
-                                        vertex: v,
-                                        face: u32::MAX,
-                                        edge: [a, b],
-                                        at: p,
-                                    });
-                                }
+        let binned = &binned;
+        // where each point sits in `binned`, to start a row of bins at an end point's bin
+        let mut pos = vec![0u32; np];
+        for (i, &(_, v)) in binned.iter().enumerate() {
+            pos[v as usize] = i as u32;
+        }
+        let pos = &pos;
+        let bin_start = |v: u32| {
+            let mut i = pos[v as usize] as usize;
+            let k = binned[i].0;
+            while i > 0 && binned[i - 1].0 == k {
+                i -= 1;
+            }
+            (k, i)
+        };
+
+        // the points strictly inside edge (a, b), ascending
+        let test = |a: u32, b: u32, probs: &mut Vec<Problem>| {
+            let (pa, pb) = (pts[a as usize], pts[b as usize]);
+            let d = pb - pa;
+            let l2 = d.length_squared();
+            if l2 == 0.0 || !l2.is_finite() {
+                return;
+            }
+            let first = probs.len();
+            let tol = REL_TOL * l2.sqrt();
+            let lo = cell_of(pa.min(pb) - Vec3::splat(tol)).map(|v| v.max(0));
+            let hi = cell_of(pa.max(pb) + Vec3::splat(tol));
+            let hi = [hi[0].min(ext[0]), hi[1].min(ext[1]), hi[2].min(ext[2])];
+            if hi[0] < lo[0] {
+                return; // only with non-finite coordinates
+            }
+            let known = [bin_start(a), bin_start(b)];
+            for z in lo[2]..=hi[2] {
+                for y in lo[1]..=hi[1] {
+                    // a row of bins along x is contiguous in key order: find its first bin
+                    // (an end point's bin or a binary search), then walk forward
+                    let k0 = key([lo[0], y, z]);
+                    let mut s = match known.iter().find(|kn| kn.0 == k0) {
+                        Some(kn) => kn.1,
+                        None => binned.partition_point(|q| q.0 < k0),
+                    };
+                    for kk in k0..=k0 + (hi[0] - lo[0]) as u64 {
+                        while s < binned.len() && binned[s].0 < kk {
+                            s += 1;
+                        }
+                        while s < binned.len() && binned[s].0 == kk {
+                            let v = binned[s].1;
+                            s += 1;
+                            if v == a || v == b {
+                                continue;
+                            }
+                            let p = pts[v as usize];
+                            let t = (p - pa).dot(d) / l2;
+                            if t <= REL_TOL || t >= 1.0 - REL_TOL {
+                                continue;
+                            }
+                            if (p - (pa + t * d)).length_squared() <= tol * tol {
+                                probs.push(Problem::VertexOnEdge {
+                                    vertex: v,
+                                    face: u32::MAX,
+                                    edge: [a, b],
+                                    at: p,
+                                });
                             }
                         }
                     }
                 }
-                probs.sort_by_key(|p| match p {
-                    Problem::VertexOnEdge { vertex, .. } => *vertex,
-                    _ => 0,
-                });
-                probs
-            })
-            .collect();
-        let mut found: Vec<Problem> = found.into_iter().flatten().collect();
+            }
+            probs[first..].sort_by_key(|p| match p {
+                Problem::VertexOnEdge { vertex, .. } => *vertex,
+                _ => 0,
+            });
+        };
+
+        // each slab rescans every face: hold at least a quarter of all occurrences at once so
+        // there are at most about five scans whatever the size
+        let total_occ: usize = count.iter().map(|&n| n as usize).sum();
+        let slab = slab.max(total_occ.div_ceil(4));
+        let mut found: Vec<Problem> = Vec::new();
+        let mut rows: Vec<u32> = Vec::new();
+        let mut offs: Vec<u32> = Vec::new();
+        let mut p0 = 0usize;
+        while p0 < np {
+            // slab [p0, p1): at most SLAB occurrences (or a single point)
+            let (mut p1, mut total) = (p0, 0usize);
+            while p1 < np && (p1 == p0 || total + (count[p1] as usize) <= slab) {
+                total += count[p1] as usize;
+                p1 += 1;
+            }
+            offs.clear();
+            offs.push(0);
+            for p in p0..p1 {
+                offs.push(offs[p - p0] + count[p]);
+            }
+            rows.clear();
+            rows.resize(total, 0);
+            let mut next: Vec<u32> = offs[..p1 - p0].to_vec();
+            for f in 0..nf {
+                let vs = self.face(f);
+                for i in 0..vs.len() {
+                    let (a, b) = lower(vs, i);
+                    if (p0..p1).contains(&(a as usize)) {
+                        let slot = &mut next[a as usize - p0];
+                        rows[*slot as usize] = b;
+                        *slot += 1;
+                    }
+                }
+            }
+            drop(next);
+            // split the rows into chunks of CHUNK lower points, sorted and tested in parallel
+            let mut parts: Vec<(usize, &mut [u32])> = Vec::new();
+            let mut rest: &mut [u32] = &mut rows;
+            let mut p = p0;
+            while p < p1 {
+                let q = (p + CHUNK).min(p1);
+                let len = (offs[q - p0] - offs[p - p0]) as usize;
+                let (head, tail) = rest.split_at_mut(len);
+                parts.push((p, head));
+                rest = tail;
+                p = q;
+            }
+            let offs = &offs;
+            let per_chunk: Vec<Vec<Problem>> = parts
+                .into_par_iter()
+                .map(|(p, part)| {
+                    let mut probs = Vec::new();
+                    let base = offs[p - p0] as usize;
+                    let q = (p + CHUNK).min(p1);
+                    for a in p..q {
+                        let s = offs[a - p0] as usize - base;
+                        let e = offs[a + 1 - p0] as usize - base;
+                        let row = &mut part[s..e];
+                        row.sort_unstable();
+                        let mut prev = None;
+                        for &b in row.iter() {
+                            if prev != Some(b) {
+                                test(a as u32, b, &mut probs);
+                                prev = Some(b);
+                            }
+                        }
+                    }
+                    probs
+                })
+                .collect();
+            found.extend(per_chunk.into_iter().flatten());
+            p0 = p1;
+        }
         if found.is_empty() {
             return;
         }
@@ -632,8 +814,8 @@ impl VolumeMesh {
         for f in 0..self.n_faces() {
             let vs = self.face(f);
             for i in 0..vs.len() {
-                let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
-                let k = (a.min(b) as u64) << 32 | a.max(b) as u64;
+                let (a, b) = lower(vs, i);
+                let k = (a as u64) << 32 | b as u64;
                 if let Ok(j) = want.binary_search(&k) {
                     face_of[j] = face_of[j].min(f as u32);
                 }
@@ -650,6 +832,20 @@ impl VolumeMesh {
         }
         out.extend(found);
     }
+}
+
+/// Sum of `f(i)` over `range`: per chunk of [`CHUNK`] in parallel, then the chunks in order.
+pub(crate) fn chunked_sum(range: std::ops::Range<usize>, f: impl Fn(usize) -> f64 + Sync) -> f64 {
+    let n = range.len();
+    let parts: Vec<f64> = (0..n.div_ceil(CHUNK))
+        .into_par_iter()
+        .map(|k| {
+            (range.start + k * CHUNK..range.start + ((k + 1) * CHUNK).min(n))
+                .map(&f)
+                .sum()
+        })
+        .collect();
+    parts.into_iter().sum()
 }
 
 fn vertex_average(points: &[Vec3], vs: &[u32]) -> Vec3 {
@@ -898,6 +1094,55 @@ mod tests {
         m.cell_cut.push(0);
         m.cell_region.push(0);
         assert!(kinds(&m.validate()).contains(&"empty_cell"));
+    }
+
+    #[test]
+    fn slabs_and_chunks_do_not_change_the_report() {
+        // a T-junction mesh and a refined block (hanging vertices on coarse faces' edges,
+        // which must not be flagged): several slabs (a quarter of the occurrences each) give the
+        // same problems as one
+        for m in [
+            broken::t_junction(),
+            testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0]]),
+        ] {
+            let (mut one, mut all) = (Vec::new(), Vec::new());
+            m.vertices_on_edges(&mut one, 1);
+            m.vertices_on_edges(&mut all, usize::MAX);
+            assert_eq!(one, all);
+        }
+        let mut probs = Vec::new();
+        broken::t_junction().vertices_on_edges(&mut probs, 1);
+        assert!(!probs.is_empty());
+        // more cells, faces and points than a chunk: same report on one thread
+        let mut m = testmesh::block(20, 0.05);
+        assert!(m.n_cells() > CHUNK && m.n_faces() > 2 * CHUNK && m.points.len() > CHUNK);
+        let last = m.points.len() - 1;
+        m.points[last] = m.points[0]; // a duplicate point far from point 0 in id order
+        let one = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
+        let a = one.install(|| m.validate());
+        assert_eq!(a, m.validate());
+        assert!(a.problems.iter().any(|p| matches!(
+            p,
+            Problem::DuplicatePoint { point, other: 0, .. } if *point as usize == last
+        )));
+        let r = testmesh::block(20, 0.05).validate();
+        assert!(r.is_valid());
+        assert!((r.cells_volume - 1.0).abs() < 1e-12); // exact: unit cube
+        assert!((r.boundary_volume - 1.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn non_finite_points_are_reported_not_panicking() {
+        for bad in [f64::NAN, f64::INFINITY] {
+            let mut m = testmesh::refined_block(2, 1.0, &[[0, 0, 0]]);
+            m.points[3].x = bad;
+            let r = m.validate();
+            assert!(!r.is_valid());
+            assert!(kinds(&r).contains(&"non_positive_volume") || kinds(&r).contains(&"open_cell"));
+        }
     }
 
     #[test]

@@ -22,6 +22,7 @@ use crate::picture::{
 };
 use octocut_surface::Vec3;
 use octocut_volmesh::{PatchKind, VolumeMesh, NO_REGION};
+use rayon::prelude::*;
 use tiny_skia::{FillRule, PathBuilder, Pixmap, Stroke, Transform};
 
 /// The plane `x[axis] = value` (axis 0, 1 or 2).
@@ -287,7 +288,23 @@ fn dist2(a: [f64; 2], b: [f64; 2]) -> f64 {
 /// assert_eq!(polys.len(), 1);
 /// assert!((polys[0].signed_area() - 1.0).abs() < 1e-15);
 /// ```
-pub fn slice_cells(cells: &impl CellFaces, plane: AxisPlane) -> Vec<SlicePolygon> {
+pub fn slice_cells(cells: &(impl CellFaces + Sync), plane: AxisPlane) -> Vec<SlicePolygon> {
+    // cells in parallel chunks, the chunks' loops concatenated in cell order
+    const CHUNK: usize = 4096;
+    let n = cells.n_cells();
+    let parts: Vec<Vec<SlicePolygon>> = (0..n.div_ceil(CHUNK))
+        .into_par_iter()
+        .map(|k| slice_range(cells, plane, k * CHUNK..((k + 1) * CHUNK).min(n)))
+        .collect();
+    parts.into_iter().flatten().collect()
+}
+
+/// The loops of cells `range` (see [`slice_cells`]).
+fn slice_range(
+    cells: &impl CellFaces,
+    plane: AxisPlane,
+    range: std::ops::Range<usize>,
+) -> Vec<SlicePolygon> {
     let k = plane.normal_axis();
     let [u, v] = plane.in_plane_axes();
     let pts = cells.points();
@@ -295,7 +312,7 @@ pub fn slice_cells(cells: &impl CellFaces, plane: AxisPlane) -> Vec<SlicePolygon
     let mut segs: Vec<Segment> = Vec::new();
     let mut crossings: Vec<(f64, [f64; 2])> = Vec::new();
     let mut used: Vec<bool> = Vec::new();
-    for cell in 0..cells.n_cells() {
+    for cell in range {
         segs.clear();
         cells.for_each_face(cell, &mut |face, side| {
             let n = face.len();

@@ -4,7 +4,12 @@
 //! own writer does), or into the raw `<AppendedData encoding="raw">` block after the `_`
 //! marker, where every array is its UInt64 byte count followed by its bytes and the
 //! `offset` attribute counts bytes from just after the `_`.
+//!
+//! Arrays are either held ([`Array`]) or streamed ([`StreamArray`]: a length, a type and a
+//! function writing the little-endian bytes on demand), so big arrays are never copied: the
+//! appended offsets follow from the lengths, and the data go straight into the writer.
 
+use rayon::prelude::*;
 use std::io::{self, Write};
 
 /// How array data are stored in the file.
@@ -28,14 +33,104 @@ pub enum Values {
     U8(Vec<u8>),
 }
 
-impl Values {
-    pub fn type_name(&self) -> &'static str {
+/// Borrowed values of one array.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum ValuesRef<'a> {
+    F64(&'a [f64]),
+    I64(&'a [i64]),
+    I32(&'a [i32]),
+    U8(&'a [u8]),
+}
+
+impl ValuesRef<'_> {
+    pub fn len(&self) -> usize {
         match self {
-            Values::F64(_) => "Float64",
-            Values::I64(_) => "Int64",
-            Values::I32(_) => "Int32",
-            Values::U8(_) => "UInt8",
+            ValuesRef::F64(v) => v.len(),
+            ValuesRef::I64(v) => v.len(),
+            ValuesRef::I32(v) => v.len(),
+            ValuesRef::U8(v) => v.len(),
         }
+    }
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+    pub fn kind(&self) -> Kind {
+        match self {
+            ValuesRef::F64(_) => Kind::F64,
+            ValuesRef::I64(_) => Kind::I64,
+            ValuesRef::I32(_) => Kind::I32,
+            ValuesRef::U8(_) => Kind::U8,
+        }
+    }
+    /// Writes the values as little-endian bytes.
+    pub fn write_le(&self, w: &mut dyn Write) -> io::Result<()> {
+        match *self {
+            ValuesRef::F64(v) => put_le(w, v.iter().map(|x| x.to_le_bytes())),
+            ValuesRef::I64(v) => put_le(w, v.iter().map(|x| x.to_le_bytes())),
+            ValuesRef::I32(v) => put_le(w, v.iter().map(|x| x.to_le_bytes())),
+            ValuesRef::U8(v) => w.write_all(v),
+        }
+    }
+}
+
+impl Values {
+    /// The values borrowed.
+    pub fn as_ref(&self) -> ValuesRef<'_> {
+        match self {
+            Values::F64(v) => ValuesRef::F64(v),
+            Values::I64(v) => ValuesRef::I64(v),
+            Values::I32(v) => ValuesRef::I32(v),
+            Values::U8(v) => ValuesRef::U8(v),
+        }
+    }
+}
+
+impl<'a> StreamArray<'a> {
+    /// A streamed array over borrowed values.
+    pub fn borrowed(name: &str, components: usize, v: ValuesRef<'a>) -> Self {
+        StreamArray::from_values(name, components, v.kind(), v.len(), move |w| v.write_le(w))
+    }
+}
+
+/// Element type of an array.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Kind {
+    F64,
+    I64,
+    I32,
+    U8,
+}
+
+impl Kind {
+    pub fn type_name(self) -> &'static str {
+        match self {
+            Kind::F64 => "Float64",
+            Kind::I64 => "Int64",
+            Kind::I32 => "Int32",
+            Kind::U8 => "UInt8",
+        }
+    }
+    /// Bytes per value.
+    pub fn width(self) -> usize {
+        match self {
+            Kind::F64 | Kind::I64 => 8,
+            Kind::I32 => 4,
+            Kind::U8 => 1,
+        }
+    }
+}
+
+impl Values {
+    pub fn kind(&self) -> Kind {
+        match self {
+            Values::F64(_) => Kind::F64,
+            Values::I64(_) => Kind::I64,
+            Values::I32(_) => Kind::I32,
+            Values::U8(_) => Kind::U8,
+        }
+    }
+    pub fn type_name(&self) -> &'static str {
+        self.kind().type_name()
     }
     pub fn len(&self) -> usize {
         match self {
@@ -110,14 +205,203 @@ pub fn xml_escape(s: &str) -> String {
     o
 }
 
+/// Writes the little-endian bytes of its values, in order.
+pub type Producer<'a> = Box<dyn Fn(&mut dyn Write) -> io::Result<()> + Sync + 'a>;
+
+/// A data array whose values are written on demand by `produce` (exactly `len` values of
+/// `kind`, all components, as little-endian bytes).
+///
+/// ```
+/// use octocut_writers::vtkxml::{Encoding, Kind, StreamArray, XmlArrays};
+/// let v = [1i32, 2, 3];
+/// let a = StreamArray::from_values("n", 1, Kind::I32, v.len(), move |w| {
+///     octocut_writers::vtkxml::put_le(w, v.iter().map(|x| x.to_le_bytes()))
+/// });
+/// let mut out = Vec::new();
+/// let mut xa = XmlArrays::new(Encoding::Ascii);
+/// xa.write_stream(&mut out, "", a).unwrap();
+/// assert!(String::from_utf8(out).unwrap().contains("\n1 2 3\n"));
+/// ```
+pub struct StreamArray<'a> {
+    pub name: String,
+    pub components: usize,
+    pub kind: Kind,
+    pub len: usize,
+    pub produce: Producer<'a>,
+}
+
+impl<'a> StreamArray<'a> {
+    pub fn from_values(
+        name: &str,
+        components: usize,
+        kind: Kind,
+        len: usize,
+        produce: impl Fn(&mut dyn Write) -> io::Result<()> + Sync + 'a,
+    ) -> Self {
+        StreamArray {
+            name: name.into(),
+            components,
+            kind,
+            len,
+            produce: Box::new(produce),
+        }
+    }
+
+    fn n_bytes(&self) -> u64 {
+        (self.len * self.kind.width()) as u64
+    }
+}
+
+/// Writes fixed-size little-endian values through a 64 KiB staging buffer.
+pub fn put_le<const N: usize>(
+    w: &mut dyn Write,
+    values: impl Iterator<Item = [u8; N]>,
+) -> io::Result<()> {
+    let mut buf = [0u8; 1 << 16];
+    let mut n = 0;
+    for v in values {
+        if n + N > buf.len() {
+            w.write_all(&buf[..n])?;
+            n = 0;
+        }
+        buf[n..n + N].copy_from_slice(&v);
+        n += N;
+    }
+    w.write_all(&buf[..n])
+}
+
+/// Writes the bytes `fill(range, buf)` makes for consecutive ranges of `0..n` (`chunk` items
+/// each), made in parallel a few chunks at a time and written in order: the output does not
+/// depend on the thread count.
+pub fn put_par(
+    w: &mut dyn Write,
+    n: usize,
+    chunk: usize,
+    fill: impl Fn(std::ops::Range<usize>, &mut Vec<u8>) + Sync,
+) -> io::Result<()> {
+    let chunk = chunk.max(1);
+    let group = chunk * 4 * rayon::current_num_threads().max(1);
+    let mut g = 0;
+    while g < n {
+        let end = (g + group).min(n);
+        let bufs: Vec<Vec<u8>> = (g..end)
+            .step_by(chunk)
+            .collect::<Vec<_>>()
+            .into_par_iter()
+            .map(|s| {
+                let mut b = Vec::new();
+                fill(s..(s + chunk).min(end), &mut b);
+                b
+            })
+            .collect();
+        for b in &bufs {
+            w.write_all(b)?;
+        }
+        g = end;
+    }
+    Ok(())
+}
+
+/// Turns little-endian bytes of `kind` values back into ascii lines of 12 values (the layout
+/// of [`Values`]' ascii form).
+struct AsciiLines<'w> {
+    w: &'w mut dyn Write,
+    kind: Kind,
+    pending: [u8; 8],
+    have: usize,
+    count: usize,
+}
+
+impl AsciiLines<'_> {
+    fn value(&mut self) -> io::Result<()> {
+        let b = self.pending;
+        if !self.count.is_multiple_of(12) {
+            self.w.write_all(b" ")?;
+        }
+        match self.kind {
+            Kind::F64 => write!(self.w, "{:e}", f64::from_le_bytes(b)),
+            Kind::I64 => write!(self.w, "{}", i64::from_le_bytes(b)),
+            Kind::I32 => write!(self.w, "{}", i32::from_le_bytes([b[0], b[1], b[2], b[3]])),
+            Kind::U8 => write!(self.w, "{}", b[0]),
+        }?;
+        self.count += 1;
+        if self.count.is_multiple_of(12) {
+            self.w.write_all(b"\n")?;
+        }
+        Ok(())
+    }
+
+    fn finish(self) -> io::Result<()> {
+        if !self.count.is_multiple_of(12) {
+            self.w.write_all(b"\n")?;
+        }
+        Ok(())
+    }
+}
+
+impl Write for AsciiLines<'_> {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        let width = self.kind.width();
+        for &byte in buf {
+            self.pending[self.have] = byte;
+            self.have += 1;
+            if self.have == width {
+                self.value()?;
+                self.have = 0;
+            }
+        }
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        Ok(())
+    }
+}
+
+/// Counts the bytes written through it (to check a producer's length).
+struct Counted<'w> {
+    w: &'w mut dyn Write,
+    n: u64,
+}
+
+impl Write for Counted<'_> {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        let k = self.w.write(buf)?;
+        self.n += k as u64;
+        Ok(k)
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        self.w.flush()
+    }
+}
+
+/// Runs `a`'s producer into `w`, failing when it wrote another number of bytes than declared.
+fn produce_checked(w: &mut dyn Write, a: &StreamArray) -> io::Result<()> {
+    let mut c = Counted { w, n: 0 };
+    (a.produce)(&mut c)?;
+    if c.n != a.n_bytes() {
+        return Err(io::Error::other(format!(
+            "array `{}`: {} bytes written, {} declared",
+            a.name,
+            c.n,
+            a.n_bytes()
+        )));
+    }
+    Ok(())
+}
+
+enum Pending<'a> {
+    Held(Array),
+    Stream(StreamArray<'a>),
+}
+
 /// Writes arrays in one encoding, collecting appended ones for [`XmlArrays::finish`].
-pub struct XmlArrays {
+pub struct XmlArrays<'a> {
     encoding: Encoding,
-    appended: Vec<Array>,
+    appended: Vec<Pending<'a>>,
     offset: u64,
 }
 
-impl XmlArrays {
+impl<'a> XmlArrays<'a> {
     pub fn new(encoding: Encoding) -> Self {
         XmlArrays {
             encoding,
@@ -138,7 +422,7 @@ impl XmlArrays {
             Encoding::Appended => {
                 writeln!(w, "{head} format=\"appended\" offset=\"{}\"/>", self.offset)?;
                 self.offset += 8 + a.values.n_bytes();
-                self.appended.push(a);
+                self.appended.push(Pending::Held(a));
             }
             Encoding::Base64 => {
                 use base64::Engine;
@@ -162,15 +446,73 @@ impl XmlArrays {
         Ok(())
     }
 
+    /// Writes the `<DataArray>` element of a streamed array (appended data are written by
+    /// [`XmlArrays::finish`]); the bytes are the same as for the held array of the same values.
+    pub fn write_stream(
+        &mut self,
+        w: &mut impl Write,
+        indent: &str,
+        a: StreamArray<'a>,
+    ) -> io::Result<()> {
+        let head = format!(
+            "{indent}<DataArray type=\"{}\" Name=\"{}\" NumberOfComponents=\"{}\"",
+            a.kind.type_name(),
+            xml_escape(&a.name),
+            a.components
+        );
+        match self.encoding {
+            Encoding::Appended => {
+                writeln!(w, "{head} format=\"appended\" offset=\"{}\"/>", self.offset)?;
+                self.offset += 8 + a.n_bytes();
+                self.appended.push(Pending::Stream(a));
+            }
+            Encoding::Base64 => {
+                use base64::Engine;
+                let e = &base64::engine::general_purpose::STANDARD;
+                writeln!(w, "{head} format=\"binary\">")?;
+                write!(w, "{indent}  {}", e.encode(a.n_bytes().to_le_bytes()))?;
+                {
+                    let mut enc = base64::write::EncoderWriter::new(&mut *w, e);
+                    produce_checked(&mut enc, &a)?;
+                    enc.finish()?;
+                }
+                writeln!(w)?;
+                writeln!(w, "{indent}</DataArray>")?;
+            }
+            Encoding::Ascii => {
+                writeln!(w, "{head} format=\"ascii\">")?;
+                let mut lines = AsciiLines {
+                    w,
+                    kind: a.kind,
+                    pending: [0; 8],
+                    have: 0,
+                    count: 0,
+                };
+                produce_checked(&mut lines, &a)?;
+                lines.finish()?;
+                writeln!(w, "{indent}</DataArray>")?;
+            }
+        }
+        Ok(())
+    }
+
     /// Writes the `<AppendedData>` block when arrays were appended.
     pub fn finish(self, w: &mut impl Write) -> io::Result<()> {
         if self.appended.is_empty() {
             return Ok(());
         }
         write!(w, "  <AppendedData encoding=\"raw\">\n   _")?;
-        for a in &self.appended {
-            w.write_all(&a.values.n_bytes().to_le_bytes())?;
-            a.values.write_le(w)?;
+        for p in &self.appended {
+            match p {
+                Pending::Held(a) => {
+                    w.write_all(&a.values.n_bytes().to_le_bytes())?;
+                    a.values.write_le(w)?;
+                }
+                Pending::Stream(a) => {
+                    w.write_all(&a.n_bytes().to_le_bytes())?;
+                    produce_checked(w, a)?;
+                }
+            }
         }
         writeln!(w, "\n  </AppendedData>")
     }

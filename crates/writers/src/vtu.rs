@@ -11,10 +11,13 @@
 //! for none), `volume` (Float64) and any extra arrays; FieldData `region_names` (String).
 
 use crate::atomic::{write_atomically, WriteError};
-use crate::vtkxml::{write_string_array, Array, Encoding, Values, XmlArrays};
+use crate::vtkxml::{
+    put_le, put_par, write_string_array, Encoding, Kind, StreamArray, Values, ValuesRef, XmlArrays,
+};
 use octocut_volmesh::geometry::{cell_volume_centroid, CellFaces};
 use octocut_volmesh::quality::CellQuality;
 use octocut_volmesh::{VolumeMesh, NO_REGION};
+use rayon::prelude::*;
 use std::io::Write;
 use std::path::Path;
 
@@ -116,19 +119,28 @@ pub fn hexahedron(mesh: &VolumeMesh, faces: &[u32]) -> Option<[u32; 8]> {
     if faces.len() != 6 || faces.iter().any(|&f| mesh.face(f as usize).len() != 4) {
         return None;
     }
-    let mut ids: Vec<u32> = faces
-        .iter()
-        .flat_map(|&f| mesh.face(f as usize))
-        .copied()
-        .collect();
-    ids.sort_unstable();
-    ids.dedup();
-    if ids.len() != 8 {
+    let mut all = [0u32; 24];
+    for (i, &f) in faces.iter().enumerate() {
+        all[4 * i..4 * i + 4].copy_from_slice(mesh.face(f as usize));
+    }
+    all.sort_unstable();
+    let mut ids = [0u32; 8];
+    let mut n = 0;
+    for (i, &v) in all.iter().enumerate() {
+        if i == 0 || v != all[i - 1] {
+            if n == 8 {
+                return None;
+            }
+            ids[n] = v;
+            n += 1;
+        }
+    }
+    if n != 8 {
         return None;
     }
     let p = |v: u32| mesh.points[v as usize];
     let (mut lo, mut hi) = (p(ids[0]), p(ids[0]));
-    for &v in &ids {
+    for &v in &ids[1..] {
         lo = lo.min(p(v));
         hi = hi.max(p(v));
     }
@@ -226,27 +238,75 @@ pub fn write_vtu(
     path: &Path,
     encoding: Encoding,
 ) -> Result<(), WriteError> {
+    let refs: Vec<(&str, ValuesRef)> = cell_data
+        .iter()
+        .map(|a| (a.name.as_str(), a.values.as_ref()))
+        .collect();
+    write_vtu_refs(mesh, &refs, path, encoding)
+}
+
+/// Cells per unit of parallel work of the writer.
+const CHUNK: usize = 4096;
+
+/// [`write_vtu`] with borrowed cell-data arrays `(name, values)`. Streams every array into
+/// the file (no copy of the mesh's arrays is built): a parallel pass sorts the cells into
+/// hexahedra and polyhedra and counts their connectivity and face-stream lengths, from which
+/// the appended offsets follow; the big arrays are then made in parallel a few chunks of cells
+/// at a time and written in order. The bytes are those of [`vtu_cells`]' arrays.
+pub fn write_vtu_refs(
+    mesh: &VolumeMesh,
+    cell_data: &[(&str, ValuesRef)],
+    path: &Path,
+    encoding: Encoding,
+) -> Result<(), WriteError> {
     check_writable(mesh)?;
     let nc = mesh.n_cells();
     let mut names = vec!["level", "cut", "region", "volume"];
-    for a in cell_data {
-        if names.contains(&a.name.as_str()) {
-            return Err(WriteError::DuplicateArray(a.name.clone()));
+    for &(name, values) in cell_data {
+        if names.contains(&name) {
+            return Err(WriteError::DuplicateArray(name.into()));
         }
-        names.push(&a.name);
-        if a.values.len() != nc {
+        names.push(name);
+        if values.len() != nc {
             return Err(WriteError::CellArrayLength {
-                name: a.name.clone(),
+                name: name.into(),
                 expected: nc,
-                found: a.values.len(),
+                found: values.len(),
             });
         }
     }
     let cf = CellFaces::new(mesh);
-    let cells = vtu_cells(mesh, &cf);
-    let volume: Vec<f64> = (0..nc)
-        .map(|c| cell_volume_centroid(mesh, c as u32, cf.of(c)).volume)
-        .collect();
+    // per cell: type, connectivity length, face-stream length (0 for a hexahedron)
+    let mut types = vec![0u8; nc];
+    let mut conn_len = vec![0u32; nc];
+    let mut stream_len = vec![0u32; nc];
+    (
+        types.par_chunks_mut(CHUNK),
+        conn_len.par_chunks_mut(CHUNK),
+        stream_len.par_chunks_mut(CHUNK),
+    )
+        .into_par_iter()
+        .enumerate()
+        .for_each(|(k, (t, cl, sl))| {
+            let mut seen = Vec::new();
+            for i in 0..t.len() {
+                let c = k * CHUNK + i;
+                let faces = cf.of(c);
+                if hexahedron(mesh, faces).is_some() {
+                    (t[i], cl[i], sl[i]) = (VTK_HEXAHEDRON, 8, 0);
+                } else {
+                    distinct_points(mesh, c, faces, &mut seen);
+                    let s: usize = faces.iter().map(|&f| 1 + mesh.face(f as usize).len()).sum();
+                    (t[i], cl[i], sl[i]) = (VTK_POLYHEDRON, seen.len() as u32, 1 + s as u32);
+                }
+            }
+        });
+    let n_conn: usize = conn_len.iter().map(|&n| n as usize).sum();
+    let n_stream: usize = stream_len.iter().map(|&n| n as usize).sum();
+    let has_poly = types.contains(&VTK_POLYHEDRON);
+    let (cf, types, conn_len, stream_len) = (&cf, &types, &conn_len, &stream_len);
+    let le = |b: &mut Vec<u8>, v: i64| b.extend_from_slice(&v.to_le_bytes());
+
     write_atomically(path, |w| {
         writeln!(w, "<?xml version=\"1.0\"?>")?;
         writeln!(
@@ -265,60 +325,116 @@ pub fn write_vtu(
             nc
         )?;
         let mut xa = XmlArrays::new(encoding);
-        let arr = |name: &str, components, values| Array {
-            name: name.into(),
-            components,
-            values,
-        };
-        let pts: Vec<f64> = mesh.points.iter().flat_map(|p| p.to_array()).collect();
+        let ind = "        ";
         writeln!(w, "      <Points>")?;
-        xa.write(w, "        ", arr("Points", 3, Values::F64(pts)))?;
+        let pts = StreamArray::from_values("Points", 3, Kind::F64, 3 * mesh.points.len(), |w| {
+            put_le(
+                w,
+                mesh.points
+                    .iter()
+                    .flat_map(|p| p.to_array())
+                    .map(f64::to_le_bytes),
+            )
+        });
+        xa.write_stream(w, ind, pts)?;
         writeln!(w, "      </Points>")?;
         writeln!(w, "      <Cells>")?;
-        let VtuCells {
-            connectivity,
-            offsets,
-            types,
-            faces,
-            faceoffsets,
-        } = cells;
-        let has_poly = !faceoffsets.is_empty();
-        xa.write(
-            w,
-            "        ",
-            arr("connectivity", 1, Values::I64(connectivity)),
-        )?;
-        xa.write(w, "        ", arr("offsets", 1, Values::I64(offsets)))?;
-        xa.write(w, "        ", arr("types", 1, Values::U8(types)))?;
-        if has_poly {
-            xa.write(w, "        ", arr("faces", 1, Values::I64(faces)))?;
-            xa.write(
+        let connectivity = StreamArray::from_values("connectivity", 1, Kind::I64, n_conn, |w| {
+            put_par(w, nc, CHUNK, |cells, b| {
+                let mut seen = Vec::new();
+                for c in cells {
+                    let faces = cf.of(c);
+                    if types[c] == VTK_HEXAHEDRON {
+                        let h = hexahedron(mesh, faces).expect("classified as a hexahedron");
+                        h.iter().for_each(|&v| le(b, v as i64));
+                    } else {
+                        distinct_points(mesh, c, faces, &mut seen);
+                        seen.iter().for_each(|&v| le(b, v as i64));
+                    }
+                }
+            })
+        });
+        xa.write_stream(w, ind, connectivity)?;
+        let offsets = StreamArray::from_values("offsets", 1, Kind::I64, nc, |w| {
+            let mut end = 0i64;
+            put_le(
                 w,
-                "        ",
-                arr("faceoffsets", 1, Values::I64(faceoffsets)),
-            )?;
+                conn_len.iter().map(|&n| {
+                    end += n as i64;
+                    end.to_le_bytes()
+                }),
+            )
+        });
+        xa.write_stream(w, ind, offsets)?;
+        xa.write_stream(
+            w,
+            ind,
+            StreamArray::borrowed("types", 1, ValuesRef::U8(types)),
+        )?;
+        if has_poly {
+            let faces = StreamArray::from_values("faces", 1, Kind::I64, n_stream, |w| {
+                put_par(w, nc, CHUNK, |cells, b| {
+                    for c in cells {
+                        if types[c] != VTK_POLYHEDRON {
+                            continue;
+                        }
+                        let faces = cf.of(c);
+                        le(b, faces.len() as i64);
+                        for &f in faces {
+                            let vs = mesh.face(f as usize);
+                            le(b, vs.len() as i64);
+                            if mesh.owner[f as usize] == c as u32 {
+                                vs.iter().for_each(|&v| le(b, v as i64));
+                            } else {
+                                vs.iter().rev().for_each(|&v| le(b, v as i64));
+                            }
+                        }
+                    }
+                })
+            });
+            xa.write_stream(w, ind, faces)?;
+            let faceoffsets = StreamArray::from_values("faceoffsets", 1, Kind::I64, nc, |w| {
+                let mut end = 0i64;
+                put_le(
+                    w,
+                    (0..nc).map(|c| {
+                        if types[c] == VTK_POLYHEDRON {
+                            end += stream_len[c] as i64;
+                            end.to_le_bytes()
+                        } else {
+                            (-1i64).to_le_bytes()
+                        }
+                    }),
+                )
+            });
+            xa.write_stream(w, ind, faceoffsets)?;
         }
         writeln!(w, "      </Cells>")?;
         writeln!(w, "      <CellData Scalars=\"level\">")?;
-        let region: Vec<i32> = mesh
-            .cell_region
-            .iter()
-            .map(|&r| if r == NO_REGION { -1 } else { r as i32 })
-            .collect();
-        xa.write(
-            w,
-            "        ",
-            arr("level", 1, Values::U8(mesh.cell_level.clone())),
-        )?;
-        xa.write(
-            w,
-            "        ",
-            arr("cut", 1, Values::U8(mesh.cell_cut.clone())),
-        )?;
-        xa.write(w, "        ", arr("region", 1, Values::I32(region)))?;
-        xa.write(w, "        ", arr("volume", 1, Values::F64(volume)))?;
-        for a in cell_data {
-            xa.write(w, "        ", arr(&a.name, 1, a.values.clone()))?;
+        let u8s = |name: &str, v| StreamArray::borrowed(name, 1, ValuesRef::U8(v));
+        xa.write_stream(w, ind, u8s("level", &mesh.cell_level))?;
+        xa.write_stream(w, ind, u8s("cut", &mesh.cell_cut))?;
+        let region = StreamArray::from_values("region", 1, Kind::I32, nc, |w| {
+            put_le(
+                w,
+                mesh.cell_region.iter().map(|&r| {
+                    let r = if r == NO_REGION { -1 } else { r as i32 };
+                    r.to_le_bytes()
+                }),
+            )
+        });
+        xa.write_stream(w, ind, region)?;
+        let volume = StreamArray::from_values("volume", 1, Kind::F64, nc, |w| {
+            put_par(w, nc, CHUNK, |cells, b| {
+                for c in cells {
+                    let v = cell_volume_centroid(mesh, c as u32, cf.of(c)).volume;
+                    b.extend_from_slice(&v.to_le_bytes());
+                }
+            })
+        });
+        xa.write_stream(w, ind, volume)?;
+        for &(name, values) in cell_data {
+            xa.write_stream(w, ind, StreamArray::borrowed(name, 1, values))?;
         }
         writeln!(w, "      </CellData>")?;
         writeln!(w, "    </Piece>")?;
@@ -326,6 +442,24 @@ pub fn write_vtu(
         xa.finish(w)?;
         writeln!(w, "</VTKFile>")
     })
+}
+
+/// The distinct points of cell `c`'s outward face streams, in order of first use.
+fn distinct_points(mesh: &VolumeMesh, c: usize, faces: &[u32], seen: &mut Vec<u32>) {
+    seen.clear();
+    for &f in faces {
+        let vs = mesh.face(f as usize);
+        let mut push = |v: u32| {
+            if !seen.contains(&v) {
+                seen.push(v);
+            }
+        };
+        if mesh.owner[f as usize] == c as u32 {
+            vs.iter().for_each(|&v| push(v));
+        } else {
+            vs.iter().rev().for_each(|&v| push(v));
+        }
+    }
 }
 
 #[cfg(test)]
@@ -424,6 +558,142 @@ mod tests {
             assert!(sum.length() < 1e-12, "cell {cell}"); // exact: closed surface
             pos = k;
             assert_eq!(c.faceoffsets[cell], pos as i64);
+        }
+    }
+
+    use crate::vtkxml::Array;
+
+    /// The writer as it was before streaming: every array built in memory first.
+    fn write_vtu_held(
+        mesh: &VolumeMesh,
+        cell_data: &[CellArray],
+        path: &Path,
+        encoding: Encoding,
+    ) -> Result<(), WriteError> {
+        check_writable(mesh)?;
+        let nc = mesh.n_cells();
+        let mut names = vec!["level", "cut", "region", "volume"];
+        for a in cell_data {
+            if names.contains(&a.name.as_str()) {
+                return Err(WriteError::DuplicateArray(a.name.clone()));
+            }
+            names.push(&a.name);
+            if a.values.len() != nc {
+                return Err(WriteError::CellArrayLength {
+                    name: a.name.clone(),
+                    expected: nc,
+                    found: a.values.len(),
+                });
+            }
+        }
+        let cf = CellFaces::new(mesh);
+        let cells = vtu_cells(mesh, &cf);
+        let volume: Vec<f64> = (0..nc)
+            .map(|c| cell_volume_centroid(mesh, c as u32, cf.of(c)).volume)
+            .collect();
+        write_atomically(path, |w| {
+            writeln!(w, "<?xml version=\"1.0\"?>")?;
+            writeln!(
+                w,
+                "<VTKFile type=\"UnstructuredGrid\" version=\"1.0\" byte_order=\"LittleEndian\" \
+                 header_type=\"UInt64\">"
+            )?;
+            writeln!(w, "  <UnstructuredGrid>")?;
+            writeln!(w, "    <FieldData>")?;
+            write_string_array(w, "      ", "region_names", &mesh.region_names)?;
+            writeln!(w, "    </FieldData>")?;
+            writeln!(
+                w,
+                "    <Piece NumberOfPoints=\"{}\" NumberOfCells=\"{}\">",
+                mesh.points.len(),
+                nc
+            )?;
+            let mut xa = XmlArrays::new(encoding);
+            let arr = |name: &str, components, values| Array {
+                name: name.into(),
+                components,
+                values,
+            };
+            let pts: Vec<f64> = mesh.points.iter().flat_map(|p| p.to_array()).collect();
+            writeln!(w, "      <Points>")?;
+            xa.write(w, "        ", arr("Points", 3, Values::F64(pts)))?;
+            writeln!(w, "      </Points>")?;
+            writeln!(w, "      <Cells>")?;
+            let VtuCells {
+                connectivity,
+                offsets,
+                types,
+                faces,
+                faceoffsets,
+            } = cells;
+            let has_poly = !faceoffsets.is_empty();
+            xa.write(
+                w,
+                "        ",
+                arr("connectivity", 1, Values::I64(connectivity)),
+            )?;
+            xa.write(w, "        ", arr("offsets", 1, Values::I64(offsets)))?;
+            xa.write(w, "        ", arr("types", 1, Values::U8(types)))?;
+            if has_poly {
+                xa.write(w, "        ", arr("faces", 1, Values::I64(faces)))?;
+                xa.write(
+                    w,
+                    "        ",
+                    arr("faceoffsets", 1, Values::I64(faceoffsets)),
+                )?;
+            }
+            writeln!(w, "      </Cells>")?;
+            writeln!(w, "      <CellData Scalars=\"level\">")?;
+            let region: Vec<i32> = mesh
+                .cell_region
+                .iter()
+                .map(|&r| if r == NO_REGION { -1 } else { r as i32 })
+                .collect();
+            xa.write(
+                w,
+                "        ",
+                arr("level", 1, Values::U8(mesh.cell_level.clone())),
+            )?;
+            xa.write(
+                w,
+                "        ",
+                arr("cut", 1, Values::U8(mesh.cell_cut.clone())),
+            )?;
+            xa.write(w, "        ", arr("region", 1, Values::I32(region)))?;
+            xa.write(w, "        ", arr("volume", 1, Values::F64(volume)))?;
+            for a in cell_data {
+                xa.write(w, "        ", arr(&a.name, 1, a.values.clone()))?;
+            }
+            writeln!(w, "      </CellData>")?;
+            writeln!(w, "    </Piece>")?;
+            writeln!(w, "  </UnstructuredGrid>")?;
+            xa.finish(w)?;
+            writeln!(w, "</VTKFile>")
+        })
+    }
+
+    #[test]
+    fn streamed_file_equals_the_held_arrays_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let (a, b) = (dir.path().join("a.vtu"), dir.path().join("b.vtu"));
+        let mut refined = testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0]]);
+        refined.region_names = vec!["r0".into()];
+        refined.cell_region[3] = 0;
+        for m in [testmesh::block(2, 0.5), refined, testmesh::clipped_cube()] {
+            let n = m.n_cells();
+            let extra = [
+                CellArray::f64("x", (0..n).map(|i| i as f64 / 7.0).collect()),
+                CellArray::i32("k", (0..n).map(|i| i as i32 - 3).collect()),
+            ];
+            for enc in [Encoding::Appended, Encoding::Base64, Encoding::Ascii] {
+                write_vtu(&m, &extra, &a, enc).unwrap();
+                write_vtu_held(&m, &extra, &b, enc).unwrap();
+                assert_eq!(
+                    std::fs::read(&a).unwrap(),
+                    std::fs::read(&b).unwrap(),
+                    "{enc:?}"
+                );
+            }
         }
     }
 
