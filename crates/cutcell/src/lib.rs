@@ -192,6 +192,7 @@ pub fn cut_cells_with_regions(
 ) -> Result<CutOutput, CutError> {
     let leaves = tree.leaves();
     let domain = &tree.domain;
+    tmark("start");
     if !(0.0..1.0).contains(&opts.small_cell_fraction) {
         return Err(CutError::BadFraction(opts.small_cell_fraction));
     }
@@ -223,6 +224,7 @@ pub fn cut_cells_with_regions(
     };
 
     let topo = Topology::build(tree);
+    tmark("topology");
     // every query below sees the grid in the shifted frame (see `grid_shift`)
     let shift = grid_shift(tree);
     let true_domain = domain;
@@ -232,6 +234,7 @@ pub fn cut_cells_with_regions(
     };
     let domain = &shifted;
     let touched = classify::touched_leaves(tree, domain, index);
+    tmark("touched");
     let n_grid = topo.grid.len() as u32;
     let gpos = |p: u32| domain.point(topo.grid[p as usize]);
     // edges to query: all edges of faces bounding a touched leaf
@@ -249,8 +252,10 @@ pub fn cut_cells_with_regions(
         .flat_map_iter(|f| face_keys(f, touches(f)))
         .collect();
     let mut eh = EdgeHits::query(index, &gpos, keys);
+    tmark("edgehits");
     let cls = classify::classify(tree, domain, index, &topo, fluid_inside, &touched, &eh);
     report.winding_evaluations = cls.evaluations;
+    tmark("classify");
     let fluid = &cls.fluid;
     // leaf status from the classes of all vertices on its boundary
     let face_mix: Vec<u8> = (0..topo.faces.len() as u32)
@@ -298,6 +303,7 @@ pub fn cut_cells_with_regions(
         eh = EdgeHits::query(index, &gpos, all);
     }
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
+    tmark("edgetable");
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
     if pierce_base >= LOCAL as u64 / 2 {
         return Err(CutError::TooManyPoints(pierce_base));
@@ -315,6 +321,7 @@ pub fn cut_cells_with_regions(
         pierce_cuts: opts.pierce_points,
     }
     .run(pierce_base);
+    tmark("clip");
     let pts = Points {
         domain,
         grid: &topo.grid,
@@ -344,6 +351,7 @@ pub fn cut_cells_with_regions(
             out
         })
         .collect();
+    tmark("close");
     // warnings: edges crossed more than once, leaves with a surface inside but uniform classes
     let warn = |l: u32, reason: &str, report: &mut CutReport| {
         report.warnings_total += 1;
@@ -413,6 +421,7 @@ pub fn cut_cells_with_regions(
             warn(l, r, &mut report);
         }
     }
+    tmark("warnings");
     // cells: uniform fluid leaves one each, cut leaves their pieces, in leaf order
     let mut leaf_cell = vec![u32::MAX; leaves.len()];
     let mut cell_leaf: Vec<u32> = Vec::new();
@@ -526,6 +535,21 @@ pub fn cut_cells_with_regions(
             );
         }
     }
+    tmark("rawfaces");
+    // the face topology, clipped polygons, crossings and closed pieces are copied out: free them
+    // before the merge and the assembly (peak memory)
+    drop(chunks);
+    drop(clip);
+    drop(edges);
+    drop(poly_e);
+    drop(poly_n);
+    drop(cut_leaves);
+    drop(cls);
+    drop(face_mix);
+    drop(mix);
+    drop(multi);
+    drop(touched);
+    drop(topo);
     if points.len() as u64 >= u32::MAX as u64 / 2 {
         return Err(CutError::TooManyPoints(points.len() as u64));
     }
@@ -566,6 +590,7 @@ pub fn cut_cells_with_regions(
             }
         }
     }
+    tmark("volumes");
     // fluid region selection
     let mut alive = vec![true; n_raw];
     if let FluidSide::Point(p) = opts.fluid {
@@ -643,6 +668,7 @@ pub fn cut_cells_with_regions(
         fraction: opts.small_cell_fraction,
     });
     report.merged_cells = merged.merged;
+    tmark("merge");
     let mut uf = merged.uf;
     for &t in &merged.tiny {
         // tiny isolated groups: report with their volume and a vertex centroid
@@ -704,6 +730,7 @@ pub fn cut_cells_with_regions(
         side_names: &opts.side_names,
     });
     report.wall_area = wall_area(&mesh);
+    tmark("assemble");
     Ok(CutOutput { mesh, report })
 }
 
@@ -820,3 +847,43 @@ fn point_cell(
 }
 #[cfg(test)]
 mod tests;
+
+/// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
+/// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
+fn tmark(name: &str) {
+    use std::sync::Mutex;
+    static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
+    if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {
+        return;
+    }
+    let now = std::time::Instant::now();
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    let fields: Vec<&str> = stat
+        .rsplit(')')
+        .next()
+        .unwrap_or("")
+        .split_whitespace()
+        .collect();
+    // utime and stime, in clock ticks (100 per second on Linux)
+    let tick = |i: usize| {
+        fields
+            .get(i)
+            .and_then(|x| x.parse::<f64>().ok())
+            .unwrap_or(0.0)
+    };
+    let cpu = (tick(11) + tick(12)) / 100.0;
+    let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    let rss = status
+        .lines()
+        .find(|l| l.starts_with("VmRSS:"))
+        .unwrap_or("");
+    let mut last = LAST.lock().unwrap_or_else(|e| e.into_inner());
+    if let Some((t, c)) = *last {
+        let wall = (now - t).as_secs_f64();
+        eprintln!(
+            "cut {name:>10}: wall {wall:6.3} s, cpu {:6.2} s, {rss}",
+            cpu - c
+        );
+    }
+    *last = Some((now, cpu));
+}
