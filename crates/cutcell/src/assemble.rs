@@ -34,6 +34,14 @@ impl RawFaces {
         self.b.push(b);
         self.kind.push(kind);
     }
+    /// Reserves room for `faces` more faces with `pts` more point ids in all.
+    pub fn reserve(&mut self, faces: usize, pts: usize) {
+        self.off.reserve(faces + 1);
+        self.pts.reserve(pts);
+        self.a.reserve(faces);
+        self.b.reserve(faces);
+        self.kind.reserve(faces);
+    }
     pub fn len(&self) -> usize {
         self.a.len()
     }

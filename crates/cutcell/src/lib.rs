@@ -223,7 +223,7 @@ pub fn cut_cells_with_regions(
         ..Default::default()
     };
 
-    let topo = Topology::build(tree);
+    let mut topo = Topology::build(tree);
     tmark("topology");
     // every query below sees the grid in the shifted frame (see `grid_shift`)
     let shift = grid_shift(tree);
@@ -341,7 +341,7 @@ pub fn cut_cells_with_regions(
         pts: &pts,
         cos_feature,
     };
-    let chunks: Vec<CutChunk> = cut_leaves
+    let mut chunks: Vec<CutChunk> = cut_leaves
         .par_chunks(64)
         .map_init(Scratch::default, |s, ls| {
             let mut out = CutChunk::default();
@@ -454,6 +454,14 @@ pub fn cut_cells_with_regions(
     points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
     points.extend(edges.crossings.iter().map(|c| c.point));
     points.extend_from_slice(&clip.pierce);
+    // free what the faces no longer need (peak memory)
+    drop(edges);
+    drop(cls);
+    drop(face_mix);
+    drop(mix);
+    drop(multi);
+    drop(touched);
+    topo.release_vertex_data();
     // polygon -> cell on each side
     let npoly = clip.poly_off.len() - 1;
     let mut poly_e = vec![u32::MAX; npoly];
@@ -470,11 +478,11 @@ pub fn cut_cells_with_regions(
     }
     let mut raw = RawFaces::default();
     {
+        // chunk-local piece indices and points to global ids, in place
         let mut cut_iter = cut_leaves.iter();
-        let mut wall_store = RawFaces::default();
-        for ch in &chunks {
-            // chunk-local piece index -> cell id
-            let mut map = Vec::with_capacity(ch.piece_volume.len());
+        let mut map = Vec::new();
+        for ch in &mut chunks {
+            map.clear();
             for &n in &ch.n_pieces {
                 let l = *cut_iter.next().unwrap();
                 for j in 0..n {
@@ -490,26 +498,23 @@ pub fn cut_cells_with_regions(
             }
             let base = points.len() as u32;
             points.extend_from_slice(&ch.new_pts);
-            let mut off = 0usize;
-            let mut buf: Vec<u32> = Vec::new();
-            for (w, &len) in ch.wall_len.iter().enumerate() {
-                buf.clear();
-                buf.extend(ch.wall_pts[off..off + len as usize].iter().map(|&q| {
-                    if q & LOCAL != 0 {
-                        base + (q & !LOCAL)
-                    } else {
-                        q
-                    }
-                }));
-                off += len as usize;
-                wall_store.push(
-                    &buf,
-                    map[ch.wall_piece[w] as usize],
-                    BOUNDARY,
-                    6 + ch.wall_tag[w],
-                );
+            for q in &mut ch.wall_pts {
+                if *q & LOCAL != 0 {
+                    *q = base + (*q & !LOCAL);
+                }
             }
+            for w in &mut ch.wall_piece {
+                *w = map[*w as usize];
+            }
+            ch.poly_piece = Vec::new();
+            ch.new_pts = Vec::new();
         }
+        let n_walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
+        let wall_pts: usize = chunks.iter().map(|c| c.wall_pts.len()).sum();
+        raw.reserve(
+            clip.poly_off.len() - 1 + n_walls,
+            clip.poly_pts.len() + wall_pts,
+        );
         for (f, face) in topo.faces.iter().enumerate() {
             for p in clip.polys_of(f as u32) {
                 let a = poly_e[p as usize];
@@ -526,29 +531,21 @@ pub fn cut_cells_with_regions(
                 }
             }
         }
-        for w in 0..wall_store.len() {
-            raw.push(
-                wall_store.face(w),
-                wall_store.a[w],
-                BOUNDARY,
-                wall_store.kind[w],
-            );
+        drop(clip);
+        drop(poly_e);
+        drop(poly_n);
+        for ch in chunks {
+            let mut off = 0usize;
+            for (w, &len) in ch.wall_len.iter().enumerate() {
+                let f = &ch.wall_pts[off..off + len as usize];
+                off += len as usize;
+                raw.push(f, ch.wall_piece[w], BOUNDARY, 6 + ch.wall_tag[w]);
+            }
         }
     }
     tmark("rawfaces");
-    // the face topology, clipped polygons, crossings and closed pieces are copied out: free them
-    // before the merge and the assembly (peak memory)
-    drop(chunks);
-    drop(clip);
-    drop(edges);
-    drop(poly_e);
-    drop(poly_n);
+    // the faces are copied out: free the topology before the merge and the assembly
     drop(cut_leaves);
-    drop(cls);
-    drop(face_mix);
-    drop(mix);
-    drop(multi);
-    drop(touched);
     drop(topo);
     if points.len() as u64 >= u32::MAX as u64 / 2 {
         return Err(CutError::TooManyPoints(points.len() as u64));
@@ -850,7 +847,7 @@ mod tests;
 
 /// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
 /// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
-fn tmark(name: &str) {
+pub(crate) fn tmark(name: &str) {
     use std::sync::Mutex;
     static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
     if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {

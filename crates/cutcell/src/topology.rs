@@ -70,9 +70,21 @@ impl Topology {
         &self.face_pts[self.face_off[f as usize] as usize..self.face_off[f as usize + 1] as usize]
     }
 
+    /// Frees the vertex data (coordinates, corners, face polygons, leaf face lists), keeping
+    /// the face list.
+    pub fn release_vertex_data(&mut self) {
+        self.grid = Vec::new();
+        self.corners = Vec::new();
+        self.face_off = Vec::new();
+        self.face_pts = Vec::new();
+        self.leaf_off = Vec::new();
+        self.leaf_faces = Vec::new();
+    }
+
     pub fn build(tree: &Octree) -> Topology {
         let leaves = tree.leaves();
         let (grid, corners, lines) = Vertices::build(leaves);
+        crate::tmark("T-verts");
         // faces, chunk-parallel, concatenated in leaf order
         const CHUNK: usize = 512;
         let chunks: Vec<(Vec<EFace>, Vec<u32>, Vec<u32>)> = (0..leaves.len())
@@ -123,6 +135,7 @@ impl Topology {
             }
             face_pts.extend(pts);
         }
+        crate::tmark("T-faces");
         // leaf -> faces
         let mut leaf_off = vec![0u32; leaves.len() + 1];
         for f in &faces {
@@ -198,6 +211,7 @@ impl Vertices {
             slot_group[s as usize] = first.len() as u32 - 1;
         }
         drop(slots);
+        crate::tmark("T-sort");
         // point ids by first appearance
         let ng = first.len();
         let mut group_id = vec![u32::MAX; ng];
