@@ -237,17 +237,27 @@ pub fn cut_cells_with_regions(
     tmark("touched");
     let n_grid = topo.grid.len() as u32;
     let gpos = |p: u32| domain.point(topo.grid[p as usize]);
-    // edges to query: all edges of faces bounding a touched leaf
+    // edges to query: all edges of faces bounding a touched leaf; an edge needs the surface
+    // query only if a triangle of a leaf it bounds has a bounding box meeting it (a leaf
+    // without triangles, or without such a triangle, proves the edge uncrossed)
+    let surf = index.surface();
     let face_keys = |f: u32, need: bool| {
         let pts = topo.face(f);
         let n = if need { pts.len() } else { 0 };
-        (0..n).map(move |i| edge_key(pts[i], pts[(i + 1) % n]))
+        let face = topo.faces[f as usize];
+        let (t, g) = (&touched, &gpos);
+        let probe = (face.is_boundary() || t.is(face.n)).then_some(face.e);
+        (0..n).map(move |i| {
+            let (p, q) = (pts[i], pts[(i + 1) % n]);
+            let may = probe.is_some_and(|l| t.may_cross(surf, l, g(p), g(q)));
+            (edge_key(p, q), may)
+        })
     };
     let touches = |f: u32| {
         let face = topo.faces[f as usize];
-        touched[face.e as usize] || (!face.is_boundary() && touched[face.n as usize])
+        touched.is(face.e) || (!face.is_boundary() && touched.is(face.n))
     };
-    let keys: Vec<u64> = (0..topo.faces.len() as u32)
+    let keys: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, touches(f)))
         .collect();
@@ -293,12 +303,18 @@ pub fn cut_cells_with_regions(
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
 
     // a mixed face away from every touched leaf (rare: classes decided at a grazing surface)
-    let extra: Vec<u64> = (0..topo.faces.len() as u32)
+    let extra: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, face_mix[f as usize] == 3 && !touches(f)))
+        .map(|(k, _)| (k, true))
         .collect();
     if !extra.is_empty() {
-        let mut all = std::mem::take(&mut eh.keys);
+        let mut all: Vec<(u64, bool)> = eh
+            .keys
+            .iter()
+            .copied()
+            .zip(eh.need.iter().copied())
+            .collect();
         all.extend(extra);
         eh = EdgeHits::query(index, &gpos, all);
     }
@@ -365,14 +381,16 @@ pub fn cut_cells_with_regions(
             });
         }
     };
+    let any_multi = edges.hits.iter().any(|&h| h >= 2);
     let multi: Vec<u8> = (0..leaves.len() as u32)
         .into_par_iter()
         .with_min_len(256)
-        .map_init(Vec::new, |tris, l| {
-            if status[l as usize] == SOLID || !touched[l as usize] {
+        .map(|l| {
+            if status[l as usize] == SOLID || !touched.is(l) {
                 return 0;
             }
-            for &f in topo.faces_of(l) {
+            let faces = if any_multi { topo.faces_of(l) } else { &[] };
+            for &f in faces {
                 let p = topo.face(f);
                 for i in 0..p.len() {
                     if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
@@ -389,8 +407,8 @@ pub fn cut_cells_with_regions(
                 let inner =
                     octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
                 let s = index.surface();
-                index.triangles_in_box(&b, tris);
-                if tris.iter().any(|&t| {
+                // the leaf's list holds every triangle meeting its box
+                if touched.of(l).iter().any(|&t| {
                     s.corners(t as usize)
                         .iter()
                         .any(|c| inner.contains_point(*c))

@@ -86,6 +86,7 @@ impl Topology {
         let (grid, corners, lines) = Vertices::build(leaves);
         crate::tmark("T-verts");
         // faces, chunk-parallel, concatenated in leaf order
+        let ext = tree.domain.grid_extent();
         const CHUNK: usize = 512;
         let chunks: Vec<(Vec<EFace>, Vec<u32>, Vec<u32>)> = (0..leaves.len())
             .collect::<Vec<_>>()
@@ -94,20 +95,30 @@ impl Topology {
                 let mut faces = Vec::with_capacity(ids.len() * 3);
                 let mut lens = Vec::with_capacity(ids.len() * 3);
                 let mut pts = Vec::with_capacity(ids.len() * 12);
-                let mut nb = Vec::new();
                 for &l in ids {
                     let k = leaves[l];
+                    let (a, e) = (k.anchor(), k.edge() as i64);
                     for d in 0..6u8 {
-                        tree.neighbours(l as u32, DIRS[d as usize], &mut nb);
-                        let n = if nb.is_empty() {
+                        // the leaf holding the anchor cell of the same-size box across `d`
+                        let mut b = [0u32; 3];
+                        let mut inside = true;
+                        for i in 0..3 {
+                            let v = a[i] as i64 + DIRS[d as usize][i] as i64 * e;
+                            inside &= v >= 0 && v < ext[i] as i64;
+                            b[i] = v.max(0) as u32;
+                        }
+                        let n = if !inside {
                             SIDE_BASE + d as u32
-                        } else if nb.len() == 1 && leaves[nb[0] as usize].level() <= k.level() {
-                            if leaves[nb[0] as usize].level() == k.level() && d % 2 == 0 {
+                        } else {
+                            let c = tree
+                                .locate_from(b, l as u32)
+                                .expect("a tiling octree holds every grid cell");
+                            let lc = leaves[c as usize].level();
+                            // finer neighbours enumerate the face themselves
+                            if lc > k.level() || (lc == k.level() && d % 2 == 0) {
                                 continue;
                             }
-                            nb[0]
-                        } else {
-                            continue;
+                            c
                         };
                         let before = pts.len();
                         face_polygon(&lines, k, &corners[l], d, &mut pts);
