@@ -8,6 +8,7 @@
 
 use octocut_surface::Vec3;
 use octocut_volmesh::{Patch, PatchKind, VolumeMesh, NO_REGION};
+use rayon::prelude::*;
 
 /// `RawFaces::other` value of a boundary face.
 pub(crate) const BOUNDARY: u32 = u32::MAX;
@@ -107,12 +108,12 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
             }
         })
         .collect();
-    interior.sort_unstable();
+    interior.par_sort_unstable();
     let mut boundary: Vec<(u32, u32, u32)> = boundary
         .into_iter()
         .map(|(k, c, i)| (patch_of(k), c, i))
         .collect();
-    boundary.sort_unstable();
+    boundary.par_sort_unstable();
     let nfaces = interior.len() + boundary.len();
     let mut face_offsets = Vec::with_capacity(nfaces + 1);
     face_offsets.push(0u32);

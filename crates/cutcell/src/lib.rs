@@ -865,7 +865,7 @@ mod tests;
 
 /// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
 /// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
-pub(crate) fn tmark(name: &str) {
+fn tmark(name: &str) {
     use std::sync::Mutex;
     static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
     if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {
@@ -888,10 +888,11 @@ pub(crate) fn tmark(name: &str) {
     };
     let cpu = (tick(11) + tick(12)) / 100.0;
     let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
-    let rss = status
-        .lines()
-        .find(|l| l.starts_with("VmRSS:"))
-        .unwrap_or("");
+    let field = |k: &str| {
+        let l = status.lines().find(|l| l.starts_with(k)).unwrap_or("");
+        l[l.len().min(k.len())..].trim().to_string()
+    };
+    let rss = format!("rss {}, peak {}", field("VmRSS:"), field("VmHWM:"));
     let mut last = LAST.lock().unwrap_or_else(|e| e.into_inner());
     if let Some((t, c)) = *last {
         let wall = (now - t).as_secs_f64();

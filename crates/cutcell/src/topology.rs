@@ -84,7 +84,6 @@ impl Topology {
     pub fn build(tree: &Octree) -> Topology {
         let leaves = tree.leaves();
         let (grid, corners, lines) = Vertices::build(leaves);
-        crate::tmark("T-verts");
         // faces, chunk-parallel, concatenated in leaf order
         let ext = tree.domain.grid_extent();
         const CHUNK: usize = 512;
@@ -146,7 +145,6 @@ impl Topology {
             }
             face_pts.extend(pts);
         }
-        crate::tmark("T-faces");
         // leaf -> faces
         let mut leaf_off = vec![0u32; leaves.len() + 1];
         for f in &faces {
@@ -222,7 +220,6 @@ impl Vertices {
             slot_group[s as usize] = first.len() as u32 - 1;
         }
         drop(slots);
-        crate::tmark("T-sort");
         // point ids by first appearance
         let ng = first.len();
         let mut group_id = vec![u32::MAX; ng];
