@@ -443,6 +443,32 @@ mod tests {
     use super::*;
 
     #[test]
+    fn touched_lists_equal_one_query_per_leaf() {
+        // reference: the index's exact triangles-in-box query on every leaf's inflated box
+        use crate::test_support::{icosphere, refined_tree};
+        let index = SurfaceIndex::new(icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2));
+        let d = Domain::new(
+            octocut_surface::Aabb::new(Vec3::ZERO, Vec3::new(2.0, 1.0, 1.0)),
+            1.0,
+        )
+        .unwrap();
+        let tree = refined_tree(d, &index, 5);
+        let t = touched_leaves(&tree, &tree.domain, &index);
+        let mut want = Vec::new();
+        let mut n_touched = 0;
+        for (l, &k) in tree.leaves().iter().enumerate() {
+            let b = tree.domain.key_box(k);
+            index.triangles_in_box(
+                &b.inflated(1e-7 * tree.domain.cell_size(k.level())),
+                &mut want,
+            );
+            assert_eq!(t.of(l as u32), &want[..], "leaf {l}");
+            n_touched += t.is(l as u32) as usize;
+        }
+        assert!(n_touched > 0 && n_touched < tree.leaves().len());
+    }
+
+    #[test]
     fn closedness_by_edge_balance() {
         // exact: the unit cube's 12 triangles use each edge once each way
         let mut s = Surface::unit_cube();

@@ -309,3 +309,64 @@ fn face_polygon(lines: &Lines, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::test_support::{icosphere, refined_tree};
+    use octocut_octree::Domain;
+    use octocut_surface::{Aabb, SurfaceIndex, Vec3};
+
+    #[test]
+    fn faces_list_exactly_the_vertices_on_their_edges() {
+        // brute force (common practice for conforming octree faces): a face polygon holds its
+        // corners plus every leaf corner lying on its boundary, in order, and no other point
+        let index = SurfaceIndex::new(icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 1));
+        let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+        let tree = refined_tree(d, &index, 4);
+        let t = Topology::build(&tree);
+        let mut all: Vec<[u32; 3]> = t.grid.clone();
+        all.sort_unstable();
+        all.dedup();
+        assert_eq!(all.len(), t.grid.len(), "one id per grid point");
+        let leaves = tree.leaves();
+        for (f, face) in t.faces.iter().enumerate() {
+            let pts = t.face(f as u32);
+            let k = leaves[face.e as usize];
+            let (a, e) = (k.anchor(), k.edge());
+            let ax = face.axis();
+            let plane = a[ax] + if face.dir % 2 == 1 { e } else { 0 };
+            let on_boundary = |g: [u32; 3]| {
+                let (u, v) = ((ax + 1) % 3, (ax + 2) % 3);
+                g[ax] == plane
+                    && (a[u]..=a[u] + e).contains(&g[u])
+                    && (a[v]..=a[v] + e).contains(&g[v])
+                    && (g[u] == a[u] || g[u] == a[u] + e || g[v] == a[v] || g[v] == a[v] + e)
+            };
+            let want = t.grid.iter().filter(|&&g| on_boundary(g)).count();
+            assert_eq!(pts.len(), want, "face {f}");
+            assert!(pts.iter().all(|&p| on_boundary(t.grid[p as usize])));
+            // consecutive points are collinear steps along one axis
+            for i in 0..pts.len() {
+                let (p, q) = (
+                    t.grid[pts[i] as usize],
+                    t.grid[pts[(i + 1) % pts.len()] as usize],
+                );
+                assert_eq!((0..3).filter(|&c| p[c] != q[c]).count(), 1, "face {f}");
+            }
+        }
+        // every leaf's faces tile its boundary: areas sum to 6 e^2
+        for l in 0..leaves.len() as u32 {
+            let e = leaves[l as usize].edge() as u64;
+            let area: u64 = t
+                .faces_of(l)
+                .iter()
+                .map(|&f| {
+                    let fe = leaves[t.faces[f as usize].e as usize].edge() as u64;
+                    fe * fe
+                })
+                .sum();
+            assert_eq!(area, 6 * e * e, "leaf {l}");
+        }
+    }
+}
