@@ -192,30 +192,29 @@ impl EdgeTable {
         fluid_inside: bool,
         eh: EdgeHits,
     ) -> EdgeTable {
-        let res: Vec<Option<Crossing>> = (0..eh.keys.len())
-            .into_par_iter()
+        // edges whose end classes differ, then their crossings in that order
+        let crossed: Vec<u32> = (0..eh.keys.len() as u32)
+            .filter(|&e| {
+                let k = eh.keys[e as usize];
+                fluid[(k >> 32) as usize] != fluid[(k as u32) as usize]
+            })
+            .collect();
+        let crossings: Vec<Crossing> = crossed
+            .par_iter()
             .with_min_len(512)
-            .map(|e| {
-                let k = eh.keys[e];
+            .map(|&e| {
+                let k = eh.keys[e as usize];
                 let (p, q) = ((k >> 32) as u32, k as u32);
                 let fa = fluid[p as usize];
-                (fa != fluid[q as usize])
-                    .then(|| edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e)))
+                edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e as usize))
             })
             .collect();
         let hits = (0..eh.keys.len())
             .map(|e| (eh.off[e + 1] - eh.off[e]).min(255) as u8)
             .collect();
-        let mut cross = Vec::with_capacity(eh.keys.len());
-        let mut crossings = Vec::new();
-        for c in res {
-            match c {
-                Some(c) => {
-                    cross.push(crossings.len() as u32);
-                    crossings.push(c);
-                }
-                None => cross.push(u32::MAX),
-            }
+        let mut cross = vec![u32::MAX; eh.keys.len()];
+        for (c, &e) in crossed.iter().enumerate() {
+            cross[e as usize] = c as u32;
         }
         EdgeTable {
             keys: eh.keys,

@@ -318,6 +318,7 @@ pub fn cut_cells_with_regions(
         all.extend(extra);
         eh = EdgeHits::query(index, &gpos, all);
     }
+    topo.corners = Vec::new();
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
     tmark("edgetable");
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
@@ -468,7 +469,9 @@ pub fn cut_cells_with_regions(
     }
     let n_raw = cell_leaf.len();
     // all point positions
-    let mut points: Vec<Vec3> = Vec::with_capacity(pierce_base as usize + clip.pierce.len());
+    let new_pts: usize = chunks.iter().map(|c| c.new_pts.len()).sum();
+    let mut points: Vec<Vec3> =
+        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
     points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
     points.extend(edges.crossings.iter().map(|c| c.point));
     points.extend_from_slice(&clip.pierce);
