@@ -738,7 +738,7 @@ pub fn cut_cells_with_regions(
     report.cut_cells = cut.iter().filter(|&&c| c != 0).count();
     let mesh = assemble(AssembleInput {
         points: &points,
-        faces: &raw,
+        faces: raw,
         cell_id: &cell_id,
         n_cells: n_cells as usize,
         cell_level: level,
