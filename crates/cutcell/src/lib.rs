@@ -223,6 +223,10 @@ pub fn cut_cells_with_regions(
         ..Default::default()
     };
 
+    // leaf corner slots are u32 ids (topology) and points must stay below 2^31
+    if leaves.len() as u64 * 8 >= 1 << 32 {
+        return Err(CutError::TooManyPoints(leaves.len() as u64 * 8));
+    }
     let mut topo = Topology::build(tree);
     tmark("topology");
     // every query below sees the grid in the shifted frame (see `grid_shift`)

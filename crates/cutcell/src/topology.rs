@@ -5,9 +5,9 @@
 //! between two leaves at the finer one's size, every boundary face a leaf face on the domain box;
 //! each is enumerated once, from its finer (or, at equal size, its lower) side. A face polygon
 //! lists its four corners and every mesh vertex (corner of any leaf) lying on its edges, read
-//! from the vertices sorted along each axis (no hash map), so no face has a T-junction. Invariants: faces are oriented
-//! counter-clockwise seen from outside the enumerating leaf `e`; every leaf's faces tile its
-//! boundary exactly once.
+//! from the vertices sorted along each axis (no hash map), so no face has a T-junction.
+//! Invariants: faces are oriented counter-clockwise seen from outside the enumerating leaf `e`;
+//! every leaf's faces tile its boundary exactly once. Needs fewer than 2^29 leaves (slot ids).
 
 use octocut_octree::{OctKey, Octree};
 use rayon::prelude::*;
@@ -209,19 +209,18 @@ impl Vertices {
             .map(|s| grid_key(corner(s / 8, s % 8)) << 32 | s as u128)
             .collect();
         slots.par_sort_unstable();
-        // group id of every slot, and each group's first slot
+        // group (distinct point) of every slot, groups in key order
         let mut slot_group = vec![0u32; n];
-        let mut first: Vec<u32> = Vec::with_capacity(leaves.len() + leaves.len() / 2);
+        let mut ng = 0u32;
         for (i, &x) in slots.iter().enumerate() {
-            let s = x as u32;
             if i == 0 || slots[i - 1] >> 32 != x >> 32 {
-                first.push(s);
+                ng += 1;
             }
-            slot_group[s as usize] = first.len() as u32 - 1;
+            slot_group[x as u32 as usize] = ng - 1;
         }
         drop(slots);
         // point ids by first appearance
-        let ng = first.len();
+        let ng = ng as usize;
         let mut group_id = vec![u32::MAX; ng];
         let mut grid = Vec::with_capacity(ng);
         let mut corners = Vec::with_capacity(leaves.len());
@@ -239,7 +238,6 @@ impl Vertices {
         drop(slot_group);
         // groups are in (z, y, x) order: that is the x-axis order
         let order0: Vec<u32> = group_id;
-        drop(first);
         let by_axis = |a: usize| -> Vec<u32> {
             let (b, c) = ((a + 1) % 3, (a + 2) % 3);
             let mut v: Vec<(u128, u32)> = grid
