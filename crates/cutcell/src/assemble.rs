@@ -8,6 +8,7 @@
 
 use octocut_surface::Vec3;
 use octocut_volmesh::{Patch, PatchKind, VolumeMesh, NO_REGION};
+use rayon::prelude::*;
 
 /// `RawFaces::other` value of a boundary face.
 pub(crate) const BOUNDARY: u32 = u32::MAX;
@@ -34,6 +35,14 @@ impl RawFaces {
         self.b.push(b);
         self.kind.push(kind);
     }
+    /// Reserves room for `faces` more faces with `pts` more point ids in all.
+    pub fn reserve(&mut self, faces: usize, pts: usize) {
+        self.off.reserve(faces + 1);
+        self.pts.reserve(pts);
+        self.a.reserve(faces);
+        self.b.reserve(faces);
+        self.kind.reserve(faces);
+    }
     pub fn len(&self) -> usize {
         self.a.len()
     }
@@ -44,7 +53,8 @@ impl RawFaces {
 
 pub(crate) struct AssembleInput<'a> {
     pub points: &'a [Vec3],
-    pub faces: &'a RawFaces,
+    /// Consumed: freed once the faces are copied out.
+    pub faces: RawFaces,
     /// Final cell id of every raw cell, or `u32::MAX` if dropped.
     pub cell_id: &'a [u32],
     pub n_cells: usize,
@@ -56,9 +66,9 @@ pub(crate) struct AssembleInput<'a> {
 }
 
 pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
-    let f = inp.faces;
-    // (sort key, raw face, reversed, owner, neighbour)
-    let mut interior: Vec<(u32, u32, u32)> = Vec::new();
+    let f = &inp.faces;
+    // interior (owner, neighbour, raw face, reversed); boundary (kind, then patch, owner, raw face)
+    let mut interior: Vec<(u32, u32, u32, bool)> = Vec::new();
     let mut boundary: Vec<(u32, u32, u32)> = Vec::new();
     let mut tags_used: Vec<u32> = Vec::new();
     for i in 0..f.len() {
@@ -76,7 +86,12 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
             if cb == u32::MAX || cb == ca {
                 continue;
             }
-            interior.push((ca, cb, i as u32));
+            // owner is the lower cell id; the polygon is reversed when it points into it
+            interior.push(if ca < cb {
+                (ca, cb, i as u32, false)
+            } else {
+                (cb, ca, i as u32, true)
+            });
         }
     }
     tags_used.sort_unstable();
@@ -89,26 +104,22 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
             tags_used.len() as u32 + kind
         }
     };
-    let mut interior: Vec<(u32, u32, u32, bool)> = interior
-        .into_iter()
-        .map(|(ca, cb, i)| {
-            if ca < cb {
-                (ca, cb, i, false)
-            } else {
-                (cb, ca, i, true)
-            }
-        })
-        .collect();
-    interior.sort_unstable();
+    interior.par_sort_unstable();
     let mut boundary: Vec<(u32, u32, u32)> = boundary
         .into_iter()
         .map(|(k, c, i)| (patch_of(k), c, i))
         .collect();
-    boundary.sort_unstable();
+    boundary.par_sort_unstable();
     let nfaces = interior.len() + boundary.len();
     let mut face_offsets = Vec::with_capacity(nfaces + 1);
     face_offsets.push(0u32);
-    let mut face_vertices = Vec::new();
+    let n_pts: usize = interior
+        .iter()
+        .map(|x| x.2)
+        .chain(boundary.iter().map(|x| x.2))
+        .map(|i| (f.off[i as usize + 1] - f.off[i as usize]) as usize)
+        .sum();
+    let mut face_vertices = Vec::with_capacity(n_pts);
     let mut owner = Vec::with_capacity(nfaces);
     let mut neighbour = Vec::with_capacity(interior.len());
     let np = inp.points.len();
@@ -138,7 +149,11 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
         owner.push(c);
         counts[p as usize] += 1;
     }
-    let mut points = Vec::new();
+    let n_interior = interior.len() as u32;
+    drop(interior);
+    drop(boundary);
+    drop(inp.faces);
+    let mut points = Vec::with_capacity(used.iter().filter(|&&u| u).count());
     for q in 0..np {
         if used[q] {
             new_id[q] = points.len() as u32;
@@ -149,7 +164,7 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
         *v = new_id[*v as usize];
     }
     let mut patches = Vec::with_capacity(n_patches);
-    let mut start = interior.len() as u32;
+    let mut start = n_interior;
     for (p, &count) in counts.iter().enumerate() {
         let (name, kind) = if p < tags_used.len() {
             let t = tags_used[p];

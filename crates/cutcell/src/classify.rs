@@ -16,7 +16,8 @@
 use crate::crossing::{edge_key, EdgeHits};
 use crate::topology::Topology;
 use crate::util::UnionFind;
-use octocut_octree::{Domain, Octree};
+use octocut_octree::{Domain, OctKey, Octree};
+use octocut_surface::tribox::triangle_box_overlap;
 use octocut_surface::{Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
 
@@ -27,16 +28,156 @@ pub(crate) struct Classes {
     pub evaluations: usize,
 }
 
-/// Leaves whose (slightly inflated) box the surface touches (exact triangle-box test).
-pub(crate) fn touched_leaves(tree: &Octree, d: &Domain, index: &SurfaceIndex) -> Vec<bool> {
-    tree.leaves()
-        .par_iter()
-        .with_min_len(256)
-        .map(|&k| {
-            let b = d.key_box(k);
-            index.any_triangle_in_box(&b.inflated(1e-7 * d.cell_size(k.level())))
+/// The triangles overlapping each leaf's slightly inflated box (exact triangle-box test), as
+/// CSR lists over all leaves; a leaf is touched when its list is not empty.
+pub(crate) struct Touched {
+    off: Vec<u32>,
+    tris: Vec<u32>,
+}
+
+impl Touched {
+    #[inline]
+    pub fn of(&self, leaf: u32) -> &[u32] {
+        &self.tris[self.off[leaf as usize] as usize..self.off[leaf as usize + 1] as usize]
+    }
+    #[inline]
+    pub fn is(&self, leaf: u32) -> bool {
+        self.off[leaf as usize] != self.off[leaf as usize + 1]
+    }
+    /// True when some triangle of `leaf`'s list has a bounding box meeting segment `a`-`b`'s
+    /// (necessary for the triangle to cross the segment when the segment lies in the leaf).
+    pub fn may_cross(&self, s: &Surface, leaf: u32, a: Vec3, b: Vec3) -> bool {
+        let (lo, hi) = (a.min(b), a.max(b));
+        self.of(leaf).iter().any(|&t| {
+            let c = s.corners(t as usize);
+            let (tlo, thi) = (c[0].min(c[1]).min(c[2]), c[0].max(c[1]).max(c[2]));
+            tlo.cmple(hi).all() && thi.cmpge(lo).all()
         })
-        .collect()
+    }
+}
+
+/// Leaves whose (slightly inflated) box the surface touches, with their triangles.
+///
+/// Top-down over the octree: each base cell takes its triangles from the index, and every
+/// node passes the triangles whose bounding box meets its own inflated box to its children,
+/// so a leaf tests only its parent's few candidates and a surface-free node settles all its
+/// leaves at once. Leaves use the exact test; a node's inflated box contains its children's,
+/// so the lists equal one exact query per leaf.
+pub(crate) fn touched_leaves(tree: &Octree, d: &Domain, index: &SurfaceIndex) -> Touched {
+    let leaves = tree.leaves();
+    // runs of leaves per base cell
+    let mut runs: Vec<(OctKey, usize, usize)> = Vec::new();
+    let mut i = 0;
+    while i < leaves.len() {
+        let root = base_cell(leaves[i]);
+        let end = root.last_descendant_morton();
+        let j = i + leaves[i..].partition_point(|k| k.morton() <= end);
+        runs.push((root, i, j));
+        i = j;
+    }
+    let walk = Walk {
+        leaves,
+        d,
+        s: index.surface(),
+    };
+    let parts: Vec<Vec<(u32, u32)>> = runs
+        .par_iter()
+        .map_init(Vec::new, |tris, &(root, lo, hi)| {
+            index.triangles_in_box(&walk.inflated(root), tris);
+            let mut out = Vec::new();
+            walk.descend(root, tris, lo, hi, &mut out);
+            out
+        })
+        .collect();
+    // (leaf, triangle) pairs come in leaf order
+    let n: usize = parts.iter().map(|p| p.len()).sum();
+    let mut off = vec![0u32; leaves.len() + 1];
+    let mut tris = Vec::with_capacity(n);
+    for p in parts {
+        for (l, t) in p {
+            off[l as usize + 1] += 1;
+            tris.push(t);
+        }
+    }
+    for l in 0..leaves.len() {
+        off[l + 1] += off[l];
+    }
+    Touched { off, tris }
+}
+
+fn base_cell(k: OctKey) -> OctKey {
+    let e = OctKey::edge_at(0);
+    OctKey::new(k.anchor().map(|c| c & !(e - 1)), 0)
+}
+
+struct Walk<'a> {
+    leaves: &'a [OctKey],
+    d: &'a Domain,
+    s: &'a Surface,
+}
+
+impl Walk<'_> {
+    fn inflated(&self, k: OctKey) -> octocut_surface::Aabb {
+        self.d
+            .key_box(k)
+            .inflated(1e-7 * self.d.cell_size(k.level()))
+    }
+
+    /// Node `k` holds leaves `lo..hi`; `cand` holds every triangle that may touch it. Appends
+    /// the (leaf, triangle) pairs of its leaves, in leaf order.
+    fn descend(&self, k: OctKey, cand: &[u32], lo: usize, hi: usize, out: &mut Vec<(u32, u32)>) {
+        if lo >= hi || cand.is_empty() {
+            return;
+        }
+        let b = self.inflated(k);
+        if hi - lo == 1 && self.leaves[lo] == k {
+            for &t in cand {
+                if triangle_box_overlap(&self.s.corners(t as usize), &b) {
+                    out.push((lo as u32, t));
+                }
+            }
+            return;
+        }
+        // inner node: bounding boxes suffice to narrow the candidates
+        let mine: Vec<u32> = cand
+            .iter()
+            .copied()
+            .filter(|&t| {
+                let c = self.s.corners(t as usize);
+                let (tlo, thi) = (c[0].min(c[1]).min(c[2]), c[0].max(c[1]).max(c[2]));
+                tlo.cmple(b.max).all() && thi.cmpge(b.min).all()
+            })
+            .collect();
+        if mine.is_empty() {
+            return;
+        }
+        // children's leaf ranges, in Morton order
+        let mut ranges = [(OctKey::default(), 0usize, 0usize); 8];
+        let mut start = lo;
+        for (c, ch) in k.children().into_iter().enumerate() {
+            let end = ch.last_descendant_morton();
+            let stop = start + self.leaves[start..hi].partition_point(|x| x.morton() <= end);
+            ranges[c] = (ch, start, stop);
+            start = stop;
+        }
+        if mine.len() > 256 {
+            let parts: Vec<Vec<(u32, u32)>> = ranges
+                .par_iter()
+                .map(|&(ch, a, z)| {
+                    let mut v = Vec::new();
+                    self.descend(ch, &mine, a, z, &mut v);
+                    v
+                })
+                .collect();
+            for p in parts {
+                out.extend(p);
+            }
+        } else {
+            for &(ch, a, z) in &ranges {
+                self.descend(ch, &mine, a, z, out);
+            }
+        }
+    }
 }
 
 /// True when every undirected edge of `s` is used equally often in each direction (the
@@ -130,7 +271,7 @@ pub(crate) fn classify(
     index: &SurfaceIndex,
     topo: &Topology,
     fluid_inside: bool,
-    touched: &[bool],
+    touched: &Touched,
     eh: &EdgeHits,
 ) -> Classes {
     let leaves = tree.leaves();
@@ -250,14 +391,14 @@ pub(crate) fn classify(
     // runs of untouched leaves
     let mut uf = UnionFind::new(leaves.len());
     for f in &topo.faces {
-        if !f.is_boundary() && !touched[f.e as usize] && !touched[f.n as usize] {
+        if !f.is_boundary() && !touched.is(f.e) && !touched.is(f.n) {
             uf.union(f.e, f.n);
         }
     }
     const UNKNOWN: u8 = 2;
     let mut run_class = vec![UNKNOWN; leaves.len()];
     for l in 0..leaves.len() as u32 {
-        if touched[l as usize] {
+        if touched.is(l) {
             continue;
         }
         let r = uf.find(l) as usize;
@@ -271,7 +412,7 @@ pub(crate) fn classify(
         }
     }
     let run_roots: Vec<u32> = (0..leaves.len() as u32)
-        .filter(|&l| !touched[l as usize] && uf.find(l) == l && run_class[l as usize] == UNKNOWN)
+        .filter(|&l| !touched.is(l) && uf.find(l) == l && run_class[l as usize] == UNKNOWN)
         .collect();
     let centres: Vec<Vec3> = run_roots
         .iter()
@@ -283,7 +424,7 @@ pub(crate) fn classify(
         run_class[l as usize] = ((w >= 0.5) == fluid_inside) as u8;
     }
     for l in 0..leaves.len() as u32 {
-        if touched[l as usize] {
+        if touched.is(l) {
             continue;
         }
         let c = run_class[uf.find(l) as usize] == 1;
@@ -300,6 +441,32 @@ pub(crate) fn classify(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn touched_lists_equal_one_query_per_leaf() {
+        // reference: the index's exact triangles-in-box query on every leaf's inflated box
+        use crate::test_support::{icosphere, refined_tree};
+        let index = SurfaceIndex::new(icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2));
+        let d = Domain::new(
+            octocut_surface::Aabb::new(Vec3::ZERO, Vec3::new(2.0, 1.0, 1.0)),
+            1.0,
+        )
+        .unwrap();
+        let tree = refined_tree(d, &index, 5);
+        let t = touched_leaves(&tree, &tree.domain, &index);
+        let mut want = Vec::new();
+        let mut n_touched = 0;
+        for (l, &k) in tree.leaves().iter().enumerate() {
+            let b = tree.domain.key_box(k);
+            index.triangles_in_box(
+                &b.inflated(1e-7 * tree.domain.cell_size(k.level())),
+                &mut want,
+            );
+            assert_eq!(t.of(l as u32), &want[..], "leaf {l}");
+            n_touched += t.is(l as u32) as usize;
+        }
+        assert!(n_touched > 0 && n_touched < tree.leaves().len());
+    }
 
     #[test]
     fn closedness_by_edge_balance() {

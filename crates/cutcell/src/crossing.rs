@@ -78,6 +78,8 @@ pub(crate) fn edge_crossing(
 pub(crate) struct EdgeHits {
     /// Sorted keys `lo << 32 | hi` of the queried edges.
     pub keys: Vec<u64>,
+    /// Whether the edge was queried (false: known uncrossed).
+    pub need: Vec<bool>,
     /// CSR offsets into `hits` per edge.
     pub off: Vec<u32>,
     /// Distinct crossings per edge, sorted by `t` (from the `lo` end).
@@ -88,25 +90,35 @@ pub(crate) struct EdgeHits {
 }
 
 impl EdgeHits {
-    /// Queries every edge in `keys` (any order, duplicates allowed).
+    /// Queries every edge in `keys` (any order, duplicates allowed), each with a flag "may be
+    /// crossed": an edge listed once with the flag false is known to be uncrossed and is not
+    /// queried.
     pub fn query(
         index: &SurfaceIndex,
         pos: &(dyn Fn(u32) -> Vec3 + Sync),
-        mut keys: Vec<u64>,
+        mut flagged: Vec<(u64, bool)>,
     ) -> EdgeHits {
-        keys.par_sort_unstable();
-        keys.dedup();
+        // false sorts first: the first of equal keys carries the conjunction of the flags
+        flagged.par_sort_unstable();
+        flagged.dedup_by_key(|x| x.0);
+        let keys: Vec<u64> = flagged.iter().map(|x| x.0).collect();
+        let need: Vec<bool> = flagged.iter().map(|x| x.1).collect();
+        drop(flagged);
         let s = index.surface();
         let parts: Vec<(Vec<u32>, Vec<SegmentHit>, Vec<i32>)> = keys
             .par_chunks(1024)
-            .map_init(Vec::new, |buf, ks| {
+            .zip(need.par_chunks(1024))
+            .map_init(Vec::new, |buf, (ks, nd)| {
                 let mut n = Vec::with_capacity(ks.len());
                 let mut hits = Vec::new();
                 let mut delta = Vec::with_capacity(ks.len());
-                for &k in ks {
+                for (&k, &may) in ks.iter().zip(nd) {
                     let (p, q) = ((k >> 32) as u32, k as u32);
                     let (a, b) = (pos(p), pos(q));
-                    index.segment_crossings(a, b, buf);
+                    buf.clear();
+                    if may {
+                        index.segment_crossings(a, b, buf);
+                    }
                     let before = hits.len();
                     let mut d = 0i32;
                     for h in buf.iter() {
@@ -141,6 +153,7 @@ impl EdgeHits {
         }
         EdgeHits {
             keys,
+            need,
             off,
             hits,
             delta,
@@ -179,30 +192,29 @@ impl EdgeTable {
         fluid_inside: bool,
         eh: EdgeHits,
     ) -> EdgeTable {
-        let res: Vec<Option<Crossing>> = (0..eh.keys.len())
-            .into_par_iter()
+        // edges whose end classes differ, then their crossings in that order
+        let crossed: Vec<u32> = (0..eh.keys.len() as u32)
+            .filter(|&e| {
+                let k = eh.keys[e as usize];
+                fluid[(k >> 32) as usize] != fluid[(k as u32) as usize]
+            })
+            .collect();
+        let crossings: Vec<Crossing> = crossed
+            .par_iter()
             .with_min_len(512)
-            .map(|e| {
-                let k = eh.keys[e];
+            .map(|&e| {
+                let k = eh.keys[e as usize];
                 let (p, q) = ((k >> 32) as u32, k as u32);
                 let fa = fluid[p as usize];
-                (fa != fluid[q as usize])
-                    .then(|| edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e)))
+                edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e as usize))
             })
             .collect();
         let hits = (0..eh.keys.len())
             .map(|e| (eh.off[e + 1] - eh.off[e]).min(255) as u8)
             .collect();
-        let mut cross = Vec::with_capacity(eh.keys.len());
-        let mut crossings = Vec::new();
-        for c in res {
-            match c {
-                Some(c) => {
-                    cross.push(crossings.len() as u32);
-                    crossings.push(c);
-                }
-                None => cross.push(u32::MAX),
-            }
+        let mut cross = vec![u32::MAX; eh.keys.len()];
+        for (c, &e) in crossed.iter().enumerate() {
+            cross[e as usize] = c as u32;
         }
         EdgeTable {
             keys: eh.keys,

@@ -192,6 +192,7 @@ pub fn cut_cells_with_regions(
 ) -> Result<CutOutput, CutError> {
     let leaves = tree.leaves();
     let domain = &tree.domain;
+    tmark("start");
     if !(0.0..1.0).contains(&opts.small_cell_fraction) {
         return Err(CutError::BadFraction(opts.small_cell_fraction));
     }
@@ -222,7 +223,12 @@ pub fn cut_cells_with_regions(
         ..Default::default()
     };
 
-    let topo = Topology::build(tree);
+    // leaf corner slots are u32 ids (topology) and points must stay below 2^31
+    if leaves.len() as u64 * 8 >= 1 << 32 {
+        return Err(CutError::TooManyPoints(leaves.len() as u64 * 8));
+    }
+    let mut topo = Topology::build(tree);
+    tmark("topology");
     // every query below sees the grid in the shifted frame (see `grid_shift`)
     let shift = grid_shift(tree);
     let true_domain = domain;
@@ -232,25 +238,38 @@ pub fn cut_cells_with_regions(
     };
     let domain = &shifted;
     let touched = classify::touched_leaves(tree, domain, index);
+    tmark("touched");
     let n_grid = topo.grid.len() as u32;
     let gpos = |p: u32| domain.point(topo.grid[p as usize]);
-    // edges to query: all edges of faces bounding a touched leaf
+    // edges to query: all edges of faces bounding a touched leaf; an edge needs the surface
+    // query only if a triangle of a leaf it bounds has a bounding box meeting it (a leaf
+    // without triangles, or without such a triangle, proves the edge uncrossed)
+    let surf = index.surface();
     let face_keys = |f: u32, need: bool| {
         let pts = topo.face(f);
         let n = if need { pts.len() } else { 0 };
-        (0..n).map(move |i| edge_key(pts[i], pts[(i + 1) % n]))
+        let face = topo.faces[f as usize];
+        let (t, g) = (&touched, &gpos);
+        let probe = (face.is_boundary() || t.is(face.n)).then_some(face.e);
+        (0..n).map(move |i| {
+            let (p, q) = (pts[i], pts[(i + 1) % n]);
+            let may = probe.is_some_and(|l| t.may_cross(surf, l, g(p), g(q)));
+            (edge_key(p, q), may)
+        })
     };
     let touches = |f: u32| {
         let face = topo.faces[f as usize];
-        touched[face.e as usize] || (!face.is_boundary() && touched[face.n as usize])
+        touched.is(face.e) || (!face.is_boundary() && touched.is(face.n))
     };
-    let keys: Vec<u64> = (0..topo.faces.len() as u32)
+    let keys: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, touches(f)))
         .collect();
     let mut eh = EdgeHits::query(index, &gpos, keys);
+    tmark("edgehits");
     let cls = classify::classify(tree, domain, index, &topo, fluid_inside, &touched, &eh);
     report.winding_evaluations = cls.evaluations;
+    tmark("classify");
     let fluid = &cls.fluid;
     // leaf status from the classes of all vertices on its boundary
     let face_mix: Vec<u8> = (0..topo.faces.len() as u32)
@@ -285,16 +304,24 @@ pub fn cut_cells_with_regions(
         .collect();
 
     // a mixed face away from every touched leaf (rare: classes decided at a grazing surface)
-    let extra: Vec<u64> = (0..topo.faces.len() as u32)
+    let extra: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, face_mix[f as usize] == 3 && !touches(f)))
+        .map(|(k, _)| (k, true))
         .collect();
     if !extra.is_empty() {
-        let mut all = std::mem::take(&mut eh.keys);
+        let mut all: Vec<(u64, bool)> = eh
+            .keys
+            .iter()
+            .copied()
+            .zip(eh.need.iter().copied())
+            .collect();
         all.extend(extra);
         eh = EdgeHits::query(index, &gpos, all);
     }
+    topo.corners = Vec::new();
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
+    tmark("edgetable");
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
     if pierce_base >= LOCAL as u64 / 2 {
         return Err(CutError::TooManyPoints(pierce_base));
@@ -327,6 +354,7 @@ pub fn cut_cells_with_regions(
     report.fluid_leaves = status.iter().filter(|&&s| s == FLUID).count();
     report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
+    tmark("clip");
     let pts = Points {
         domain,
         grid: &topo.grid,
@@ -346,7 +374,7 @@ pub fn cut_cells_with_regions(
         pts: &pts,
         cos_feature,
     };
-    let chunks: Vec<CutChunk> = cut_leaves
+    let mut chunks: Vec<CutChunk> = cut_leaves
         .par_chunks(64)
         .map_init(Scratch::default, |s, ls| {
             let mut out = CutChunk::default();
@@ -356,6 +384,7 @@ pub fn cut_cells_with_regions(
             out
         })
         .collect();
+    tmark("close");
     // warnings: edges crossed more than once, leaves with a surface inside but uniform classes
     let warn = |l: u32, reason: &str, report: &mut CutReport| {
         report.warnings_total += 1;
@@ -369,14 +398,16 @@ pub fn cut_cells_with_regions(
             });
         }
     };
+    let any_multi = edges.hits.iter().any(|&h| h >= 2);
     let multi: Vec<u8> = (0..leaves.len() as u32)
         .into_par_iter()
         .with_min_len(256)
-        .map_init(Vec::new, |tris, l| {
-            if status[l as usize] == SOLID || !touched[l as usize] {
+        .map(|l| {
+            if status[l as usize] == SOLID || !touched.is(l) {
                 return 0;
             }
-            for &f in topo.faces_of(l) {
+            let faces = if any_multi { topo.faces_of(l) } else { &[] };
+            for &f in faces {
                 let p = topo.face(f);
                 for i in 0..p.len() {
                     if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
@@ -393,8 +424,8 @@ pub fn cut_cells_with_regions(
                 let inner =
                     octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
                 let s = index.surface();
-                index.triangles_in_box(&b, tris);
-                if tris.iter().any(|&t| {
+                // the leaf's list holds every triangle meeting its box
+                if touched.of(l).iter().any(|&t| {
                     s.corners(t as usize)
                         .iter()
                         .any(|c| inner.contains_point(*c))
@@ -425,6 +456,7 @@ pub fn cut_cells_with_regions(
             warn(l, r, &mut report);
         }
     }
+    tmark("warnings");
     // cells: uniform fluid leaves one each, cut leaves their pieces, in leaf order
     let mut leaf_cell = vec![u32::MAX; leaves.len()];
     let mut cell_leaf: Vec<u32> = Vec::new();
@@ -453,10 +485,20 @@ pub fn cut_cells_with_regions(
     }
     let n_raw = cell_leaf.len();
     // all point positions
-    let mut points: Vec<Vec3> = Vec::with_capacity(pierce_base as usize + clip.pierce.len());
+    let new_pts: usize = chunks.iter().map(|c| c.new_pts.len()).sum();
+    let mut points: Vec<Vec3> =
+        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
     points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
     points.extend(edges.crossings.iter().map(|c| c.point));
     points.extend_from_slice(&clip.pierce);
+    // free what the faces no longer need (peak memory)
+    drop(edges);
+    drop(cls);
+    drop(face_mix);
+    drop(mix);
+    drop(multi);
+    drop(touched);
+    topo.release_vertex_data();
     // polygon -> cell on each side
     let npoly = clip.poly_off.len() - 1;
     let mut poly_e = vec![u32::MAX; npoly];
@@ -473,11 +515,11 @@ pub fn cut_cells_with_regions(
     }
     let mut raw = RawFaces::default();
     {
+        // chunk-local piece indices and points to global ids, in place
         let mut cut_iter = cut_leaves.iter();
-        let mut wall_store = RawFaces::default();
-        for ch in &chunks {
-            // chunk-local piece index -> cell id
-            let mut map = Vec::with_capacity(ch.piece_volume.len());
+        let mut map = Vec::new();
+        for ch in &mut chunks {
+            map.clear();
             for &n in &ch.n_pieces {
                 let l = *cut_iter.next().unwrap();
                 for j in 0..n {
@@ -493,26 +535,23 @@ pub fn cut_cells_with_regions(
             }
             let base = points.len() as u32;
             points.extend_from_slice(&ch.new_pts);
-            let mut off = 0usize;
-            let mut buf: Vec<u32> = Vec::new();
-            for (w, &len) in ch.wall_len.iter().enumerate() {
-                buf.clear();
-                buf.extend(ch.wall_pts[off..off + len as usize].iter().map(|&q| {
-                    if q & LOCAL != 0 {
-                        base + (q & !LOCAL)
-                    } else {
-                        q
-                    }
-                }));
-                off += len as usize;
-                wall_store.push(
-                    &buf,
-                    map[ch.wall_piece[w] as usize],
-                    BOUNDARY,
-                    6 + ch.wall_tag[w],
-                );
+            for q in &mut ch.wall_pts {
+                if *q & LOCAL != 0 {
+                    *q = base + (*q & !LOCAL);
+                }
             }
+            for w in &mut ch.wall_piece {
+                *w = map[*w as usize];
+            }
+            ch.poly_piece = Vec::new();
+            ch.new_pts = Vec::new();
         }
+        let n_walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
+        let wall_pts: usize = chunks.iter().map(|c| c.wall_pts.len()).sum();
+        raw.reserve(
+            clip.poly_off.len() - 1 + n_walls,
+            clip.poly_pts.len() + wall_pts,
+        );
         for (f, face) in topo.faces.iter().enumerate() {
             for p in clip.polys_of(f as u32) {
                 let a = poly_e[p as usize];
@@ -529,15 +568,22 @@ pub fn cut_cells_with_regions(
                 }
             }
         }
-        for w in 0..wall_store.len() {
-            raw.push(
-                wall_store.face(w),
-                wall_store.a[w],
-                BOUNDARY,
-                wall_store.kind[w],
-            );
+        drop(clip);
+        drop(poly_e);
+        drop(poly_n);
+        for ch in chunks {
+            let mut off = 0usize;
+            for (w, &len) in ch.wall_len.iter().enumerate() {
+                let f = &ch.wall_pts[off..off + len as usize];
+                off += len as usize;
+                raw.push(f, ch.wall_piece[w], BOUNDARY, 6 + ch.wall_tag[w]);
+            }
         }
     }
+    tmark("rawfaces");
+    // the faces are copied out: free the topology before the merge and the assembly
+    drop(cut_leaves);
+    drop(topo);
     if points.len() as u64 >= u32::MAX as u64 / 2 {
         return Err(CutError::TooManyPoints(points.len() as u64));
     }
@@ -578,6 +624,7 @@ pub fn cut_cells_with_regions(
             }
         }
     }
+    tmark("volumes");
     // fluid region selection
     let mut alive = vec![true; n_raw];
     if let FluidSide::Point(p) = opts.fluid {
@@ -655,6 +702,7 @@ pub fn cut_cells_with_regions(
         fraction: opts.small_cell_fraction,
     });
     report.merged_cells = merged.merged;
+    tmark("merge");
     let mut uf = merged.uf;
     for &t in &merged.tiny {
         // tiny isolated groups: report with their volume and a vertex centroid
@@ -706,7 +754,7 @@ pub fn cut_cells_with_regions(
     report.cut_cells = cut.iter().filter(|&&c| c != 0).count();
     let mesh = assemble(AssembleInput {
         points: &points,
-        faces: &raw,
+        faces: raw,
         cell_id: &cell_id,
         n_cells: n_cells as usize,
         cell_level: level,
@@ -716,6 +764,7 @@ pub fn cut_cells_with_regions(
         side_names: &opts.side_names,
     });
     report.wall_area = wall_area(&mesh);
+    tmark("assemble");
     Ok(CutOutput { mesh, report })
 }
 
@@ -832,3 +881,44 @@ fn point_cell(
 }
 #[cfg(test)]
 mod tests;
+
+/// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
+/// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
+fn tmark(name: &str) {
+    use std::sync::Mutex;
+    static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
+    if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {
+        return;
+    }
+    let now = std::time::Instant::now();
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    let fields: Vec<&str> = stat
+        .rsplit(')')
+        .next()
+        .unwrap_or("")
+        .split_whitespace()
+        .collect();
+    // utime and stime, in clock ticks (100 per second on Linux)
+    let tick = |i: usize| {
+        fields
+            .get(i)
+            .and_then(|x| x.parse::<f64>().ok())
+            .unwrap_or(0.0)
+    };
+    let cpu = (tick(11) + tick(12)) / 100.0;
+    let status = std::fs::read_to_string("/proc/self/status").unwrap_or_default();
+    let field = |k: &str| {
+        let l = status.lines().find(|l| l.starts_with(k)).unwrap_or("");
+        l[l.len().min(k.len())..].trim().to_string()
+    };
+    let rss = format!("rss {}, peak {}", field("VmRSS:"), field("VmHWM:"));
+    let mut last = LAST.lock().unwrap_or_else(|e| e.into_inner());
+    if let Some((t, c)) = *last {
+        let wall = (now - t).as_secs_f64();
+        eprintln!(
+            "cut {name:>10}: wall {wall:6.3} s, cpu {:6.2} s, {rss}",
+            cpu - c
+        );
+    }
+    *last = Some((now, cpu));
+}

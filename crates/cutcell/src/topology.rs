@@ -4,12 +4,11 @@
 //! Method (common practice for face-based octree meshes): every interior face is the face
 //! between two leaves at the finer one's size, every boundary face a leaf face on the domain box;
 //! each is enumerated once, from its finer (or, at equal size, its lower) side. A face polygon
-//! lists its four corners and every mesh vertex (corner of any leaf) lying on its edges, found
-//! by recursive midpoint look-up, so no face has a T-junction. Invariants: faces are oriented
-//! counter-clockwise seen from outside the enumerating leaf `e`; every leaf's faces tile its
-//! boundary exactly once.
+//! lists its four corners and every mesh vertex (corner of any leaf) lying on its edges, read
+//! from the vertices sorted along each axis (no hash map), so no face has a T-junction.
+//! Invariants: faces are oriented counter-clockwise seen from outside the enumerating leaf `e`;
+//! every leaf's faces tile its boundary exactly once. Needs fewer than 2^29 leaves (slot ids).
 
-use crate::util::FxMap;
 use octocut_octree::{OctKey, Octree};
 use rayon::prelude::*;
 
@@ -71,29 +70,22 @@ impl Topology {
         &self.face_pts[self.face_off[f as usize] as usize..self.face_off[f as usize + 1] as usize]
     }
 
+    /// Frees the vertex data (coordinates, corners, face polygons, leaf face lists), keeping
+    /// the face list.
+    pub fn release_vertex_data(&mut self) {
+        self.grid = Vec::new();
+        self.corners = Vec::new();
+        self.face_off = Vec::new();
+        self.face_pts = Vec::new();
+        self.leaf_off = Vec::new();
+        self.leaf_faces = Vec::new();
+    }
+
     pub fn build(tree: &Octree) -> Topology {
         let leaves = tree.leaves();
-        let mut map: FxMap<u128, u32> = FxMap::default();
-        map.reserve(leaves.len() + leaves.len() / 2);
-        let mut grid = Vec::with_capacity(leaves.len() + leaves.len() / 2);
-        let mut corners = Vec::with_capacity(leaves.len());
-        for k in leaves {
-            let a = k.anchor();
-            let e = k.edge();
-            let c: [u32; 8] = std::array::from_fn(|i| {
-                let g = [
-                    a[0] + e * (i as u32 & 1),
-                    a[1] + e * ((i as u32 >> 1) & 1),
-                    a[2] + e * ((i as u32 >> 2) & 1),
-                ];
-                *map.entry(grid_key(g)).or_insert_with(|| {
-                    grid.push(g);
-                    (grid.len() - 1) as u32
-                })
-            });
-            corners.push(c);
-        }
+        let (grid, corners, lines) = Vertices::build(leaves);
         // faces, chunk-parallel, concatenated in leaf order
+        let ext = tree.domain.grid_extent();
         const CHUNK: usize = 512;
         let chunks: Vec<(Vec<EFace>, Vec<u32>, Vec<u32>)> = (0..leaves.len())
             .collect::<Vec<_>>()
@@ -102,23 +94,33 @@ impl Topology {
                 let mut faces = Vec::with_capacity(ids.len() * 3);
                 let mut lens = Vec::with_capacity(ids.len() * 3);
                 let mut pts = Vec::with_capacity(ids.len() * 12);
-                let mut nb = Vec::new();
                 for &l in ids {
                     let k = leaves[l];
+                    let (a, e) = (k.anchor(), k.edge() as i64);
                     for d in 0..6u8 {
-                        tree.neighbours(l as u32, DIRS[d as usize], &mut nb);
-                        let n = if nb.is_empty() {
+                        // the leaf holding the anchor cell of the same-size box across `d`
+                        let mut b = [0u32; 3];
+                        let mut inside = true;
+                        for i in 0..3 {
+                            let v = a[i] as i64 + DIRS[d as usize][i] as i64 * e;
+                            inside &= v >= 0 && v < ext[i] as i64;
+                            b[i] = v.max(0) as u32;
+                        }
+                        let n = if !inside {
                             SIDE_BASE + d as u32
-                        } else if nb.len() == 1 && leaves[nb[0] as usize].level() <= k.level() {
-                            if leaves[nb[0] as usize].level() == k.level() && d % 2 == 0 {
+                        } else {
+                            let c = tree
+                                .locate_from(b, l as u32)
+                                .expect("a tiling octree holds every grid cell");
+                            let lc = leaves[c as usize].level();
+                            // finer neighbours enumerate the face themselves
+                            if lc > k.level() || (lc == k.level() && d % 2 == 0) {
                                 continue;
                             }
-                            nb[0]
-                        } else {
-                            continue;
+                            c
                         };
                         let before = pts.len();
-                        face_polygon(&map, k, &corners[l], d, &mut pts);
+                        face_polygon(&lines, k, &corners[l], d, &mut pts);
                         faces.push(EFace {
                             e: l as u32,
                             n,
@@ -176,8 +178,95 @@ impl Topology {
     }
 }
 
+/// Mesh vertices sorted along each axis: `order[a]` lists point ids by (the two other
+/// coordinates, then coordinate `a`), so the vertices on an axis-parallel segment are
+/// contiguous there; `rank[a][p]` is point `p`'s position in `order[a]`.
+pub(crate) struct Lines {
+    order: [Vec<u32>; 3],
+    rank: [Vec<u32>; 3],
+}
+
+struct Vertices;
+
+impl Vertices {
+    /// Grid coordinates by point id (ids in order of first appearance over the leaves' corners),
+    /// each leaf's corner ids, and the axis orders. By sorting, without a hash map.
+    fn build(leaves: &[OctKey]) -> (Vec<[u32; 3]>, Vec<[u32; 8]>, Lines) {
+        let corner = |l: usize, i: usize| {
+            let k = leaves[l];
+            let (a, e) = (k.anchor(), k.edge());
+            [
+                a[0] + e * (i as u32 & 1),
+                a[1] + e * ((i as u32 >> 1) & 1),
+                a[2] + e * ((i as u32 >> 2) & 1),
+            ]
+        };
+        // (grid key, leaf corner slot), sorted: equal points together, first slot first
+        let n = leaves.len() * 8;
+        let mut slots: Vec<u128> = (0..n)
+            .into_par_iter()
+            .with_min_len(4096)
+            .map(|s| grid_key(corner(s / 8, s % 8)) << 32 | s as u128)
+            .collect();
+        slots.par_sort_unstable();
+        // group (distinct point) of every slot, groups in key order
+        let mut slot_group = vec![0u32; n];
+        let mut ng = 0u32;
+        for (i, &x) in slots.iter().enumerate() {
+            if i == 0 || slots[i - 1] >> 32 != x >> 32 {
+                ng += 1;
+            }
+            slot_group[x as u32 as usize] = ng - 1;
+        }
+        drop(slots);
+        // point ids by first appearance
+        let ng = ng as usize;
+        let mut group_id = vec![u32::MAX; ng];
+        let mut grid = Vec::with_capacity(ng);
+        let mut corners = Vec::with_capacity(leaves.len());
+        for l in 0..leaves.len() {
+            let c: [u32; 8] = std::array::from_fn(|i| {
+                let g = slot_group[l * 8 + i] as usize;
+                if group_id[g] == u32::MAX {
+                    group_id[g] = grid.len() as u32;
+                    grid.push(corner(l, i));
+                }
+                group_id[g]
+            });
+            corners.push(c);
+        }
+        drop(slot_group);
+        // groups are in (z, y, x) order: that is the x-axis order
+        let order0: Vec<u32> = group_id;
+        let by_axis = |a: usize| -> Vec<u32> {
+            let (b, c) = ((a + 1) % 3, (a + 2) % 3);
+            let mut v: Vec<(u128, u32)> = grid
+                .par_iter()
+                .enumerate()
+                .map(|(p, g)| {
+                    (
+                        (g[b] as u128) << 64 | (g[c] as u128) << 32 | g[a] as u128,
+                        p as u32,
+                    )
+                })
+                .collect();
+            v.par_sort_unstable();
+            v.into_iter().map(|x| x.1).collect()
+        };
+        let order = [order0, by_axis(1), by_axis(2)];
+        let rank = std::array::from_fn(|a| {
+            let mut r = vec![0u32; ng];
+            for (i, &p) in order[a].iter().enumerate() {
+                r[p as usize] = i as u32;
+            }
+            r
+        });
+        (grid, corners, Lines { order, rank })
+    }
+}
+
 /// Appends the polygon of leaf `k`'s face in direction `d`, counter-clockwise seen from outside.
-fn face_polygon(map: &FxMap<u128, u32>, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u32>) {
+fn face_polygon(lines: &Lines, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u32>) {
     let axis = (d / 2) as usize;
     let positive = d % 2 == 1;
     let a = k.anchor();
@@ -204,28 +293,78 @@ fn face_polygon(map: &FxMap<u128, u32>, k: OctKey, ids: &[u32; 8], d: u8, out: &
         ids[bit(0) | bit(1) | bit(2)]
     };
     for i in 0..4 {
-        let p = corner(i);
-        push_edge(map, p, id(p), corner((i + 1) % 4), e, out);
+        let (p, q) = (corner(i), corner((i + 1) % 4));
+        let (pid, qid) = (id(p), id(q));
+        out.push(pid);
+        // every mesh vertex strictly between p and q, in order from p
+        let ax = if p[u] != q[u] { u } else { v };
+        let (rp, rq) = (lines.rank[ax][pid as usize], lines.rank[ax][qid as usize]);
+        let ord = &lines.order[ax];
+        if rp < rq {
+            out.extend_from_slice(&ord[rp as usize + 1..rq as usize]);
+        } else {
+            out.extend(ord[rq as usize + 1..rp as usize].iter().rev());
+        }
     }
 }
 
-/// Pushes `p` (point id `pid`) and every mesh vertex strictly between `p` and `q` (edge of `len`
-/// units), in order.
-fn push_edge(
-    map: &FxMap<u128, u32>,
-    p: [u32; 3],
-    pid: u32,
-    q: [u32; 3],
-    len: u32,
-    out: &mut Vec<u32>,
-) {
-    if len >= 2 {
-        let m = [(p[0] + q[0]) / 2, (p[1] + q[1]) / 2, (p[2] + q[2]) / 2];
-        if let Some(&mid) = map.get(&grid_key(m)) {
-            push_edge(map, p, pid, m, len / 2, out);
-            push_edge(map, m, mid, q, len / 2, out);
-            return;
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::test_support::{icosphere, refined_tree};
+    use octocut_octree::Domain;
+    use octocut_surface::{Aabb, SurfaceIndex, Vec3};
+
+    #[test]
+    fn faces_list_exactly_the_vertices_on_their_edges() {
+        // brute force (common practice for conforming octree faces): a face polygon holds its
+        // corners plus every leaf corner lying on its boundary, in order, and no other point
+        let index = SurfaceIndex::new(icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 1));
+        let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
+        let tree = refined_tree(d, &index, 4);
+        let t = Topology::build(&tree);
+        let mut all: Vec<[u32; 3]> = t.grid.clone();
+        all.sort_unstable();
+        all.dedup();
+        assert_eq!(all.len(), t.grid.len(), "one id per grid point");
+        let leaves = tree.leaves();
+        for (f, face) in t.faces.iter().enumerate() {
+            let pts = t.face(f as u32);
+            let k = leaves[face.e as usize];
+            let (a, e) = (k.anchor(), k.edge());
+            let ax = face.axis();
+            let plane = a[ax] + if face.dir % 2 == 1 { e } else { 0 };
+            let on_boundary = |g: [u32; 3]| {
+                let (u, v) = ((ax + 1) % 3, (ax + 2) % 3);
+                g[ax] == plane
+                    && (a[u]..=a[u] + e).contains(&g[u])
+                    && (a[v]..=a[v] + e).contains(&g[v])
+                    && (g[u] == a[u] || g[u] == a[u] + e || g[v] == a[v] || g[v] == a[v] + e)
+            };
+            let want = t.grid.iter().filter(|&&g| on_boundary(g)).count();
+            assert_eq!(pts.len(), want, "face {f}");
+            assert!(pts.iter().all(|&p| on_boundary(t.grid[p as usize])));
+            // consecutive points are collinear steps along one axis
+            for i in 0..pts.len() {
+                let (p, q) = (
+                    t.grid[pts[i] as usize],
+                    t.grid[pts[(i + 1) % pts.len()] as usize],
+                );
+                assert_eq!((0..3).filter(|&c| p[c] != q[c]).count(), 1, "face {f}");
+            }
+        }
+        // every leaf's faces tile its boundary: areas sum to 6 e^2
+        for l in 0..leaves.len() as u32 {
+            let e = leaves[l as usize].edge() as u64;
+            let area: u64 = t
+                .faces_of(l)
+                .iter()
+                .map(|&f| {
+                    let fe = leaves[t.faces[f as usize].e as usize].edge() as u64;
+                    fe * fe
+                })
+                .sum();
+            assert_eq!(area, 6 * e * e, "leaf {l}");
         }
     }
-    out.push(pid);
 }
