@@ -217,6 +217,18 @@ fn fluid_volume_is_box_minus_body() {
             worst = worst.max(rel);
         }
         assert_eq!(rep["fluid_volume"], file["fluid_volume"], "{name}");
+        // report.json times every stage, writing the other files included
+        let stages: Vec<&str> = file["stages"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|s| s["stage"].as_str().unwrap())
+            .collect();
+        assert_eq!(
+            stages,
+            ["load", "refine", "cut", "validate", "quality", "write"],
+            "{name}"
+        );
     }
     eprintln!("worst relative error {worst:.3e}");
 }

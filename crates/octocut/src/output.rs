@@ -51,7 +51,7 @@ pub fn write_outputs(
         _ => Encoding::Appended,
     };
     let mut clock = StageClock::default();
-    clock.run(hooks, Stage::Write, "files", || {
+    let mut written = clock.run(hooks, Stage::Write, "files", || {
         let mut written = Vec::new();
         if want("vtu") {
             let p = dir.join("mesh.vtu");
@@ -72,15 +72,19 @@ pub fn write_outputs(
         if want("png") {
             written.extend(write_pictures(out, dir)?);
         }
-        if want("report") {
-            let p = dir.join("report.json");
-            let text = serde_json::to_string_pretty(&out.report).map_err(|e| werr(&p, e))?;
-            write_atomically(&p, |w| w.write_all(text.as_bytes())).map_err(|e| werr(&p, e))?;
-            written.push(p);
-        }
         let n = written.len() as u64;
         Ok::<_, MeshError>((written, n))
-    })
+    })?;
+    // the report last, with the time and peak memory of writing the other files
+    if want("report") {
+        let p = dir.join("report.json");
+        let mut report = out.report.clone();
+        report.stages.extend(clock.figures.iter().cloned());
+        let text = serde_json::to_string_pretty(&report).map_err(|e| werr(&p, e))?;
+        write_atomically(&p, |w| w.write_all(text.as_bytes())).map_err(|e| werr(&p, e))?;
+        written.push(p);
+    }
+    Ok(written)
 }
 
 /// The slice planes through the middle of `bodies`, one per axis.

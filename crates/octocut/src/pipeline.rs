@@ -6,7 +6,7 @@
 
 use crate::report::{CellCounts, MeshReport, PatchFigures, Plan, PlannedSize};
 use crate::spec::{CaseSpec, FluidSpec, RegionShapeSpec};
-use crate::stages::{Hooks, Stage, StageClock};
+use crate::stages::{Hooks, Stage, StageClock, StageFigures};
 use octocut_cutcell::{cut_cells_with_regions, CutOptions, FluidSide};
 use octocut_octree::{
     estimate::DRY_RUN_LEAVES, estimate_kept, leaf_regions, refine, Domain, GapSpec, LevelPlan,
@@ -59,6 +59,8 @@ pub struct Mesher {
     health: HealthReport,
     files: Vec<String>,
     load_seconds: f64,
+    /// Peak resident memory of the process up to the end of loading, bytes.
+    load_peak: u64,
 }
 
 /// A finished run: the validated mesh, its quality and the report.
@@ -90,6 +92,7 @@ impl Mesher {
         let mut m = Mesher::from_surface(surface, &opts);
         m.files = paths.iter().map(|p| p.display().to_string()).collect();
         m.load_seconds = t0.elapsed().as_secs_f64();
+        m.load_peak = crate::stages::peak_memory_bytes();
         Ok(m)
     }
 
@@ -111,6 +114,7 @@ impl Mesher {
             health,
             files: Vec::new(),
             load_seconds: t0.elapsed().as_secs_f64(),
+            load_peak: crate::stages::peak_memory_bytes(),
         }
     }
 
@@ -484,7 +488,16 @@ impl Mesher {
             cut: serde_json::to_value(cut).unwrap_or_default(),
             surface_health: serde_json::to_value(&self.health).unwrap_or_default(),
             warnings,
-            stages: clock.figures,
+            // loading happened once, before this run (a Mesher meshes several specs)
+            stages: std::iter::once(StageFigures {
+                stage: Stage::Load,
+                seconds: self.load_seconds,
+                items: self.index.surface().triangles.len() as u64,
+                unit: "triangles".into(),
+                peak_memory_bytes: self.load_peak,
+            })
+            .chain(clock.figures.iter().cloned())
+            .collect(),
             mesh_bytes: crate::report::mesh_bytes(mesh),
         }
     }
