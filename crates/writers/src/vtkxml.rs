@@ -270,6 +270,39 @@ pub fn put_le<const N: usize>(
     w.write_all(&buf[..n])
 }
 
+/// Writes integer ids as Int32 (`wide` false) or Int64 little-endian bytes.
+pub fn put_ids(
+    w: &mut dyn Write,
+    wide: bool,
+    values: impl Iterator<Item = i64>,
+) -> io::Result<()> {
+    if wide {
+        put_le(w, values.map(i64::to_le_bytes))
+    } else {
+        put_le(w, values.map(|v| (v as i32).to_le_bytes()))
+    }
+}
+
+/// Appends one id to `b` as Int32 (`wide` false) or Int64 little-endian bytes.
+#[inline]
+pub fn push_id(b: &mut Vec<u8>, wide: bool, v: i64) {
+    if wide {
+        b.extend_from_slice(&v.to_le_bytes());
+    } else {
+        b.extend_from_slice(&(v as i32).to_le_bytes());
+    }
+}
+
+/// The kind of id arrays whose largest value is `max`: Int32 when it fits (half the bytes of
+/// Int64; VTK's XML readers convert either to their id type), Int64 otherwise.
+pub fn id_kind(max: usize) -> Kind {
+    if max <= i32::MAX as usize {
+        Kind::I32
+    } else {
+        Kind::I64
+    }
+}
+
 /// Writes the bytes `fill(range, buf)` makes for consecutive ranges of `0..n` (`chunk` items
 /// each), made in parallel a few chunks at a time and written in order: the output does not
 /// depend on the thread count.

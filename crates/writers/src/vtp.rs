@@ -6,12 +6,13 @@
 //! exact f64 coordinates (Float64). Cell data `tag` (Int32) is the patch index; the patch names
 //! are the FieldData String array `tag_names`, entry `i` naming tag `i` (a reader takes
 //! `GetFieldData().GetAbstractArray("tag_names").GetValue(tag)`); FieldData `tag_kinds` gives
-//! each patch's kind (`wall:<surface tag>` or `side:<0..5>`). Cell data `face` (Int64) is the
-//! mesh face id of each polygon.
+//! each patch's kind (`wall:<surface tag>` or `side:<0..5>`). Cell data `face` is the
+//! mesh face id of each polygon. Ids and offsets are Int32, or Int64 where a value exceeds
+//! 2^31 - 1.
 
 use crate::atomic::{write_atomically, WriteError};
 use crate::vtkxml::{
-    put_le, write_string_array, Encoding, Kind, StreamArray, ValuesRef, XmlArrays,
+    id_kind, put_ids, put_le, write_string_array, Encoding, Kind, StreamArray, ValuesRef, XmlArrays,
 };
 use crate::vtu::check_writable;
 use octocut_volmesh::{PatchKind, VolumeMesh};
@@ -54,6 +55,9 @@ pub fn write_vtp(mesh: &VolumeMesh, path: &Path, encoding: Encoding) -> Result<(
         n_conn += mesh.face(f).len();
     }
     let (new_id, used, tag) = (&new_id, &used, &tag);
+    let kind = id_kind(used.len().max(n_conn));
+    let wide = kind == Kind::I64;
+    let face_kind = id_kind(nf);
     let names: Vec<String> = mesh.patches.iter().map(|p| p.name.clone()).collect();
     let kinds: Vec<String> = mesh
         .patches
@@ -96,22 +100,24 @@ pub fn write_vtp(mesh: &VolumeMesh, path: &Path, encoding: Encoding) -> Result<(
         xa.write_stream(w, ind, pts)?;
         writeln!(w, "      </Points>")?;
         writeln!(w, "      <Polys>")?;
-        let conn = StreamArray::from_values("connectivity", 1, Kind::I64, n_conn, |w| {
-            put_le(
+        let conn = StreamArray::from_values("connectivity", 1, kind, n_conn, |w| {
+            put_ids(
                 w,
+                wide,
                 (ni..nf)
                     .flat_map(|f| mesh.face(f))
-                    .map(|&v| (new_id[v as usize] as i64).to_le_bytes()),
+                    .map(|&v| new_id[v as usize] as i64),
             )
         });
         xa.write_stream(w, ind, conn)?;
-        let offs = StreamArray::from_values("offsets", 1, Kind::I64, nf - ni, |w| {
+        let offs = StreamArray::from_values("offsets", 1, kind, nf - ni, |w| {
             let mut end = 0i64;
-            put_le(
+            put_ids(
                 w,
+                wide,
                 (ni..nf).map(|f| {
                     end += mesh.face(f).len() as i64;
-                    end.to_le_bytes()
+                    end
                 }),
             )
         });
@@ -119,8 +125,8 @@ pub fn write_vtp(mesh: &VolumeMesh, path: &Path, encoding: Encoding) -> Result<(
         writeln!(w, "      </Polys>")?;
         writeln!(w, "      <CellData Scalars=\"tag\">")?;
         xa.write_stream(w, ind, StreamArray::borrowed("tag", 1, ValuesRef::I32(tag)))?;
-        let face_ids = StreamArray::from_values("face", 1, Kind::I64, nf - ni, |w| {
-            put_le(w, (ni..nf).map(|f| (f as i64).to_le_bytes()))
+        let face_ids = StreamArray::from_values("face", 1, face_kind, nf - ni, |w| {
+            put_ids(w, face_kind == Kind::I64, (ni..nf).map(|f| f as i64))
         });
         xa.write_stream(w, ind, face_ids)?;
         writeln!(w, "      </CellData>")?;
@@ -209,12 +215,20 @@ mod tests {
             xa.write(w, "        ", arr("Points", 3, Values::F64(pts)))?;
             writeln!(w, "      </Points>")?;
             writeln!(w, "      <Polys>")?;
-            xa.write(w, "        ", arr("connectivity", 1, Values::I64(conn)))?;
-            xa.write(w, "        ", arr("offsets", 1, Values::I64(offs)))?;
+            let ids = |v: Vec<i64>, max: usize| {
+                if id_kind(max) == Kind::I64 {
+                    Values::I64(v)
+                } else {
+                    Values::I32(v.into_iter().map(|x| x as i32).collect())
+                }
+            };
+            let max = used.len().max(conn.len());
+            xa.write(w, "        ", arr("connectivity", 1, ids(conn, max)))?;
+            xa.write(w, "        ", arr("offsets", 1, ids(offs, max)))?;
             writeln!(w, "      </Polys>")?;
             writeln!(w, "      <CellData Scalars=\"tag\">")?;
             xa.write(w, "        ", arr("tag", 1, Values::I32(tag)))?;
-            xa.write(w, "        ", arr("face", 1, Values::I64(face_ids)))?;
+            xa.write(w, "        ", arr("face", 1, ids(face_ids, nf)))?;
             writeln!(w, "      </CellData>")?;
             writeln!(w, "    </Piece>")?;
             writeln!(w, "  </PolyData>")?;

@@ -7,12 +7,12 @@
 //! count, then for every face its point count and point ids, oriented out of the cell) and
 //! `faceoffsets` (the end of each cell's stream, -1 for a non-polyhedron); a polyhedron's
 //! `connectivity` lists its distinct points in order of first use. Points are Float64, ids
-//! Int64, types UInt8. Cell data: `level` (UInt8), `cut` (UInt8, 0/1), `region` (Int32, -1
+//! Int32 (Int64 when a point id or an offset exceeds 2^31 - 1), types UInt8. Cell data: `level` (UInt8), `cut` (UInt8, 0/1), `region` (Int32, -1
 //! for none), `volume` (Float64) and any extra arrays; FieldData `region_names` (String).
 
 use crate::atomic::{write_atomically, WriteError};
 use crate::vtkxml::{
-    put_le, put_par, write_string_array, Encoding, Kind, StreamArray, Values, ValuesRef, XmlArrays,
+    id_kind, push_id, put_ids, put_le, put_par, write_string_array, Encoding, Kind, StreamArray, Values, ValuesRef, XmlArrays,
 };
 use octocut_volmesh::geometry::{cell_volume_centroid, CellFaces};
 use octocut_volmesh::quality::CellQuality;
@@ -305,7 +305,9 @@ pub fn write_vtu_refs(
     let n_stream: usize = stream_len.iter().map(|&n| n as usize).sum();
     let has_poly = types.contains(&VTK_POLYHEDRON);
     let (cf, types, conn_len, stream_len) = (&cf, &types, &conn_len, &stream_len);
-    let le = |b: &mut Vec<u8>, v: i64| b.extend_from_slice(&v.to_le_bytes());
+    let kind = id_kind(ids_max(mesh.points.len(), n_conn, n_stream));
+    let wide = kind == Kind::I64;
+    let le = |b: &mut Vec<u8>, v: i64| push_id(b, wide, v);
 
     write_atomically(path, |w| {
         writeln!(w, "<?xml version=\"1.0\"?>")?;
@@ -339,7 +341,7 @@ pub fn write_vtu_refs(
         xa.write_stream(w, ind, pts)?;
         writeln!(w, "      </Points>")?;
         writeln!(w, "      <Cells>")?;
-        let connectivity = StreamArray::from_values("connectivity", 1, Kind::I64, n_conn, |w| {
+        let connectivity = StreamArray::from_values("connectivity", 1, kind, n_conn, |w| {
             put_par(w, nc, CHUNK, |cells, b| {
                 let mut seen = Vec::new();
                 for c in cells {
@@ -355,13 +357,14 @@ pub fn write_vtu_refs(
             })
         });
         xa.write_stream(w, ind, connectivity)?;
-        let offsets = StreamArray::from_values("offsets", 1, Kind::I64, nc, |w| {
+        let offsets = StreamArray::from_values("offsets", 1, kind, nc, |w| {
             let mut end = 0i64;
-            put_le(
+            put_ids(
                 w,
+                wide,
                 conn_len.iter().map(|&n| {
                     end += n as i64;
-                    end.to_le_bytes()
+                    end
                 }),
             )
         });
@@ -372,7 +375,7 @@ pub fn write_vtu_refs(
             StreamArray::borrowed("types", 1, ValuesRef::U8(types)),
         )?;
         if has_poly {
-            let faces = StreamArray::from_values("faces", 1, Kind::I64, n_stream, |w| {
+            let faces = StreamArray::from_values("faces", 1, kind, n_stream, |w| {
                 put_par(w, nc, CHUNK, |cells, b| {
                     for c in cells {
                         if types[c] != VTK_POLYHEDRON {
@@ -393,16 +396,17 @@ pub fn write_vtu_refs(
                 })
             });
             xa.write_stream(w, ind, faces)?;
-            let faceoffsets = StreamArray::from_values("faceoffsets", 1, Kind::I64, nc, |w| {
+            let faceoffsets = StreamArray::from_values("faceoffsets", 1, kind, nc, |w| {
                 let mut end = 0i64;
-                put_le(
+                put_ids(
                     w,
+                    wide,
                     (0..nc).map(|c| {
                         if types[c] == VTK_POLYHEDRON {
                             end += stream_len[c] as i64;
-                            end.to_le_bytes()
+                            end
                         } else {
-                            (-1i64).to_le_bytes()
+                            -1
                         }
                     }),
                 )
@@ -442,6 +446,12 @@ pub fn write_vtu_refs(
         xa.finish(w)?;
         writeln!(w, "</VTKFile>")
     })
+}
+
+/// The largest value an id array of a file holds: a point id, an offset into the
+/// connectivity or into the face stream (face and vertex counts are smaller).
+fn ids_max(points: usize, n_conn: usize, n_stream: usize) -> usize {
+    points.max(n_conn).max(n_stream)
 }
 
 /// The distinct points of cell `c`'s outward face streams, in order of first use.
@@ -627,20 +637,21 @@ mod tests {
                 faceoffsets,
             } = cells;
             let has_poly = !faceoffsets.is_empty();
-            xa.write(
-                w,
-                "        ",
-                arr("connectivity", 1, Values::I64(connectivity)),
-            )?;
-            xa.write(w, "        ", arr("offsets", 1, Values::I64(offsets)))?;
+            let wide = id_kind(ids_max(mesh.points.len(), connectivity.len(), faces.len()))
+                == Kind::I64;
+            let ids = |v: Vec<i64>| {
+                if wide {
+                    Values::I64(v)
+                } else {
+                    Values::I32(v.into_iter().map(|x| x as i32).collect())
+                }
+            };
+            xa.write(w, "        ", arr("connectivity", 1, ids(connectivity)))?;
+            xa.write(w, "        ", arr("offsets", 1, ids(offsets)))?;
             xa.write(w, "        ", arr("types", 1, Values::U8(types)))?;
             if has_poly {
-                xa.write(w, "        ", arr("faces", 1, Values::I64(faces)))?;
-                xa.write(
-                    w,
-                    "        ",
-                    arr("faceoffsets", 1, Values::I64(faceoffsets)),
-                )?;
+                xa.write(w, "        ", arr("faces", 1, ids(faces)))?;
+                xa.write(w, "        ", arr("faceoffsets", 1, ids(faceoffsets)))?;
             }
             writeln!(w, "      </Cells>")?;
             writeln!(w, "      <CellData Scalars=\"level\">")?;
