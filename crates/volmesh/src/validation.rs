@@ -475,27 +475,37 @@ impl VolumeMesh {
 
     fn check_duplicate_points(&self, out: &mut Vec<Problem>) {
         let pts = &self.points;
-        // exact coordinates as integers in f64 total order (IEEE 754 bit trick)
-        let key = |x: f64| {
-            // + 0.0 turns -0.0 into 0.0: equal coordinates, equal keys
-            let b = (x + 0.0).to_bits() as i64;
-            (b ^ ((((b >> 63) as u64) >> 1) as i64)) as u64 ^ (1 << 63)
-        };
-        let key3 = |i: u32| {
-            let p = pts[i as usize];
-            [key(p.x), key(p.y), key(p.z)]
-        };
-        // point ids sorted by (coordinates, id): 4 bytes a point
-        let mut order: Vec<u32> = (0..pts.len() as u32).collect();
-        order.par_sort_unstable_by(|&a, &b| key3(a).cmp(&key3(b)).then(a.cmp(&b)));
+        // exact coordinate bits (+ 0.0 turns -0.0 into 0.0: equal coordinates, equal bits)
+        let bits = |p: Vec3| [(p.x + 0.0).to_bits(), (p.y + 0.0).to_bits(), (p.z + 0.0).to_bits()];
+        // (hash of the bits, id) pairs sorted: equal points sit in one run of equal hashes,
+        // ids ascending; 16 bytes a point, no comparison reads the points
+        let mut keyed: Vec<(u64, u32)> = pts
+            .par_iter()
+            .enumerate()
+            .map(|(i, &p)| {
+                let [x, y, z] = bits(p);
+                (mix(mix(mix(x) ^ y) ^ z), i as u32)
+            })
+            .collect();
+        keyed.par_sort_unstable();
         let mut found = Vec::new();
-        let mut first = 0;
-        for i in 1..order.len() {
-            if key3(order[i]) == key3(order[first]) {
-                found.push((order[i], order[first]));
-            } else {
-                first = i;
+        let mut i = 0;
+        while i < keyed.len() {
+            let mut j = i + 1;
+            while j < keyed.len() && keyed[j].0 == keyed[i].0 {
+                j += 1;
             }
+            // each point against the lowest earlier point of the run with the same bits
+            for k in i + 1..j {
+                let b = bits(pts[keyed[k].1 as usize]);
+                if let Some(&(_, other)) = keyed[i..k]
+                    .iter()
+                    .find(|&&(_, o)| bits(pts[o as usize]) == b)
+                {
+                    found.push((keyed[k].1, other));
+                }
+            }
+            i = j;
         }
         found.sort_unstable();
         for (point, other) in found {
@@ -846,6 +856,14 @@ pub(crate) fn chunked_sum(range: std::ops::Range<usize>, f: impl Fn(usize) -> f6
         })
         .collect();
     parts.into_iter().sum()
+}
+
+/// The SplitMix64 finaliser (Steele, Lea and Flood 2014): a bijective 64-bit mix.
+fn mix(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
 }
 
 fn vertex_average(points: &[Vec3], vs: &[u32]) -> Vec3 {
