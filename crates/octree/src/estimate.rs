@@ -106,20 +106,22 @@ pub fn estimate_kept(
     let mut prev: Option<u64> = None;
     let mut cap = 0u8;
     loop {
-        let (leaves, kept_fraction) =
+        let (leaves, balanced) =
             match refine_leaves(domain, index, spec, &plan, cap, Some(8 * budget)) {
                 Ok((l, _)) => {
                     let b = balance(domain, l, spec.balance, spec.transition_layers)?;
-                    (
-                        b.len() as u64,
-                        keep.map_or(1.0, |k| kept_share(domain, &b, k)),
-                    )
+                    (b.len() as u64, Some(b))
                 }
                 // the capped tree alone is large: it bounds the answer from below
-                Err(OctreeError::TooManyLeaves { .. }) => (8 * budget, 1.0),
+                Err(OctreeError::TooManyLeaves { .. }) => (8 * budget, None),
                 Err(e) => return Err(e),
             };
         if cap >= lmax || leaves >= budget {
+            // the keep test runs on the final capped tree only (it costs a winding number each)
+            let kept_fraction = match (keep, &balanced) {
+                (Some(k), Some(b)) => kept_share(domain, b, k),
+                _ => 1.0,
+            };
             let (n, exact) = if cap >= lmax {
                 (leaves, true)
             } else {
