@@ -14,10 +14,11 @@ use octocut_surface::Aabb;
 use octocut_writers::histogram::{render_histogram, HistogramStyle, Measure};
 pub use octocut_writers::slice::AxisPlane;
 use octocut_writers::slice::{
-    mesh_values, render_slice, slice_cells, ColourBy, SliceStyle, VolumeMeshCells,
+    mesh_values, render_slice, slice_cells, slice_cells_on_planes, ColourBy, SliceStyle,
+    VolumeMeshCells,
 };
 use octocut_writers::vtkxml::ValuesRef;
-use octocut_writers::vtu::write_vtu_refs;
+use octocut_writers::vtu::write_vtu_with_volumes;
 use octocut_writers::{write_atomically, write_vtp, CellArray, Encoding};
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -59,7 +60,9 @@ pub fn write_outputs(
             let named = out.quality.per_cell.named();
             let extra: Vec<(&str, ValuesRef)> =
                 named.iter().map(|&(n, v)| (n, ValuesRef::F64(v))).collect();
-            write_vtu_refs(&out.mesh, &extra, &p, encoding).map_err(|e| werr(&p, e))?;
+            let volume = &out.quality.per_cell.volume;
+            write_vtu_with_volumes(&out.mesh, volume, &extra, &p, encoding)
+                .map_err(|e| werr(&p, e))?;
             written.push(p);
         }
         crate::pipeline::release_free_memory();
@@ -103,8 +106,10 @@ pub fn write_pictures(out: &Outcome, dir: &Path) -> Result<Vec<PathBuf>, MeshErr
     let values = mesh_values(&out.mesh, ColourBy::Level).unwrap_or_default();
     let bodies = out.bodies;
     let domain = out.domain.bounds();
-    for plane in middle_planes(&bodies) {
-        let polys = slice_cells(&cells, plane);
+    let planes = middle_planes(&bodies);
+    let cut = slice_cells_on_planes(&cells, &planes);
+    drop(cells);
+    for (plane, polys) in planes.into_iter().zip(cut) {
         let [u, v] = plane.in_plane_axes();
         // show the bodies with one body length around them, clipped to the domain
         let margin = bodies.extent().max_element();

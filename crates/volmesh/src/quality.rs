@@ -86,6 +86,9 @@ pub struct MeasureStats {
 /// Per-cell values, ready to be written as cell data.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct CellQuality {
+    /// Cell volumes ([`crate::geometry::cell_volume_centroid`]), kept so that writers need
+    /// not compute them again; not among [`CellQuality::named`] (writers name it themselves).
+    pub volume: Vec<f64>,
     pub non_orthogonality: Vec<f64>,
     pub skewness: Vec<f64>,
     pub volume_ratio: Vec<f64>,
@@ -356,6 +359,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
     };
 
     let mut pc = CellQuality {
+        volume: Vec::new(),
         non_orthogonality: vec![0.0; nc],
         skewness: vec![0.0; nc],
         volume_ratio: vec![0.0; nc],
@@ -522,7 +526,7 @@ pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> Quali
             },
             cell_place,
         ),
-        per_cell: pc,
+        per_cell: CellQuality { volume, ..pc },
     }
 }
 

@@ -271,11 +271,7 @@ pub fn put_le<const N: usize>(
 }
 
 /// Writes integer ids as Int32 (`wide` false) or Int64 little-endian bytes.
-pub fn put_ids(
-    w: &mut dyn Write,
-    wide: bool,
-    values: impl Iterator<Item = i64>,
-) -> io::Result<()> {
+pub fn put_ids(w: &mut dyn Write, wide: bool, values: impl Iterator<Item = i64>) -> io::Result<()> {
     if wide {
         put_le(w, values.map(i64::to_le_bytes))
     } else {

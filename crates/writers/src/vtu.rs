@@ -12,7 +12,8 @@
 
 use crate::atomic::{write_atomically, WriteError};
 use crate::vtkxml::{
-    id_kind, push_id, put_ids, put_le, put_par, write_string_array, Encoding, Kind, StreamArray, Values, ValuesRef, XmlArrays,
+    id_kind, push_id, put_ids, put_le, put_par, write_string_array, Encoding, Kind, StreamArray,
+    Values, ValuesRef, XmlArrays,
 };
 use octocut_volmesh::geometry::{cell_volume_centroid, CellFaces};
 use octocut_volmesh::quality::CellQuality;
@@ -259,8 +260,40 @@ pub fn write_vtu_refs(
     path: &Path,
     encoding: Encoding,
 ) -> Result<(), WriteError> {
+    write_vtu_streamed(mesh, None, cell_data, path, encoding)
+}
+
+/// [`write_vtu_refs`] with the cell volumes already computed (e.g.
+/// `QualityReport::per_cell.volume`), written as the `volume` array instead of computing them
+/// again. The caller vouches that they are `geometry::cell_volume_centroid`'s volumes.
+pub fn write_vtu_with_volumes(
+    mesh: &VolumeMesh,
+    volume: &[f64],
+    cell_data: &[(&str, ValuesRef)],
+    path: &Path,
+    encoding: Encoding,
+) -> Result<(), WriteError> {
+    write_vtu_streamed(mesh, Some(volume), cell_data, path, encoding)
+}
+
+fn write_vtu_streamed(
+    mesh: &VolumeMesh,
+    given_volume: Option<&[f64]>,
+    cell_data: &[(&str, ValuesRef)],
+    path: &Path,
+    encoding: Encoding,
+) -> Result<(), WriteError> {
     check_writable(mesh)?;
     let nc = mesh.n_cells();
+    if let Some(v) = given_volume {
+        if v.len() != nc {
+            return Err(WriteError::CellArrayLength {
+                name: "volume".into(),
+                expected: nc,
+                found: v.len(),
+            });
+        }
+    }
     let mut names = vec!["level", "cut", "region", "volume"];
     for &(name, values) in cell_data {
         if names.contains(&name) {
@@ -428,15 +461,24 @@ pub fn write_vtu_refs(
             )
         });
         xa.write_stream(w, ind, region)?;
-        let volume = StreamArray::from_values("volume", 1, Kind::F64, nc, |w| {
-            put_par(w, nc, CHUNK, |cells, b| {
-                for c in cells {
-                    let v = cell_volume_centroid(mesh, c as u32, cf.of(c)).volume;
-                    b.extend_from_slice(&v.to_le_bytes());
-                }
-            })
-        });
-        xa.write_stream(w, ind, volume)?;
+        match given_volume {
+            Some(v) => xa.write_stream(
+                w,
+                ind,
+                StreamArray::borrowed("volume", 1, ValuesRef::F64(v)),
+            )?,
+            None => {
+                let volume = StreamArray::from_values("volume", 1, Kind::F64, nc, |w| {
+                    put_par(w, nc, CHUNK, |cells, b| {
+                        for c in cells {
+                            let v = cell_volume_centroid(mesh, c as u32, cf.of(c)).volume;
+                            b.extend_from_slice(&v.to_le_bytes());
+                        }
+                    })
+                });
+                xa.write_stream(w, ind, volume)?;
+            }
+        }
         for &(name, values) in cell_data {
             xa.write_stream(w, ind, StreamArray::borrowed(name, 1, values))?;
         }
@@ -637,8 +679,8 @@ mod tests {
                 faceoffsets,
             } = cells;
             let has_poly = !faceoffsets.is_empty();
-            let wide = id_kind(ids_max(mesh.points.len(), connectivity.len(), faces.len()))
-                == Kind::I64;
+            let wide =
+                id_kind(ids_max(mesh.points.len(), connectivity.len(), faces.len())) == Kind::I64;
             let ids = |v: Vec<i64>| {
                 if wide {
                     Values::I64(v)
@@ -706,6 +748,22 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn given_volumes_write_the_same_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let (a, b) = (dir.path().join("a.vtu"), dir.path().join("b.vtu"));
+        let m = testmesh::refined_block(2, 1.0, &[[1, 0, 0]]);
+        let cf = CellFaces::new(&m);
+        let vol: Vec<f64> = (0..m.n_cells())
+            .map(|c| cell_volume_centroid(&m, c as u32, cf.of(c)).volume)
+            .collect();
+        write_vtu_refs(&m, &[], &a, Encoding::Appended).unwrap();
+        write_vtu_with_volumes(&m, &vol, &[], &b, Encoding::Appended).unwrap();
+        assert_eq!(std::fs::read(&a).unwrap(), std::fs::read(&b).unwrap());
+        let r = write_vtu_with_volumes(&m, &vol[1..], &[], &b, Encoding::Appended);
+        assert!(matches!(r, Err(WriteError::CellArrayLength { .. })));
     }
 
     #[test]
