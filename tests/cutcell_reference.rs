@@ -111,7 +111,23 @@ fn rotated_cube_volume_converges_second_order() {
     let c = rotated_cube(Vec3::new(0.5, 0.49, 0.51), a, 0.4, 0.7);
     // exact: cube a^3 (rotation keeps volume)
     let o = volume_convergence("cube", &c, a.powi(3), [4, 5, 6], &CutOptions::default());
-    check_order("cube", &o, 1.8);
+    // the walls follow the flat facets, edges and corners exactly except where a corner or an
+    // edge tip pokes through a face between grid vertices, so the error is no smooth O(h^2)
+    // term and the step orders scatter (observed errors 6.3e-6, 2.4e-8, 6.9e-8): asserted is
+    // that every level stays within the second-order envelope of the coarsest one,
+    // |e_l| <= 1.5 |e_4| 4^-(l - 4)
+    let mut e = o.iter().scan(0.0, |acc, x| {
+        *acc += x;
+        Some(*acc)
+    });
+    for l in 1..=2 {
+        let gained = e.next().unwrap();
+        assert!(
+            gained >= 2.0 * l as f64 - 1.5f64.log2(),
+            "cube: error at level {} only {gained:.2} halvings below level 4 (orders {o:?})",
+            4 + l
+        );
+    }
 }
 
 #[test]
@@ -185,18 +201,73 @@ fn rotated_cube_walls_follow_edges_and_corners() {
             100.0 * share,
             worst / h
         );
-        // Known gap: where a cube edge passes a cell without piercing the face between two
-        // crossings (or close to a grid vertex) the fan still cuts the edge; observed 3.1 % of
-        // samples beyond 0.05 h at level 4 and 2.3 % at level 5, worst 0.33 h and 0.36 h.
-        // Asserted: at least 95 % within 0.05 h, all within 0.5 h.
+        // required: every sample within 0.05 h (one-sided Hausdorff distance of the walls to
+        // the cube); observed worst 0.032 h at level 4 and 0.042 h at level 5, where a cube
+        // corner just outside a cell pokes through the face between its vertices
         assert!(
-            share <= 0.05,
-            "level {lv}: {:.2} % of wall samples beyond 0.05 h",
-            100.0 * share
+            far == 0 && worst <= 0.05 * h,
+            "level {lv}: {:.2} % of wall samples beyond 0.05 h, worst {:.4} h",
+            100.0 * share,
+            worst / h
         );
+    }
+}
+
+#[test]
+fn prism_edges_through_grid_edges_are_exact() {
+    // a square prism standing through the whole box, turned about z: its four vertical edges
+    // poke through many grid edges between two fluid vertices and pierce every z face
+    let (side, turn, centre) = (0.37, 0.6, Vec3::new(0.5, 0.49, 0.5));
+    let mut s = Surface::unit_cube();
+    let rot = glam::DMat3::from_rotation_z(turn);
+    for p in &mut s.vertices {
+        let q = (*p - Vec3::splat(0.5)) * Vec3::new(side, side, 1.3);
+        *p = centre + rot * q;
+    }
+    let rot_t = rot.transpose();
+    // outside: fluid pokes nowhere; inside: fluid pokes through edges between solid vertices
+    for (lv, fluid) in [4u8, 5].into_iter().flat_map(|l| [(l, false), (l, true)]) {
+        let h = 1.0 / (1u32 << lv) as f64;
+        let opts = CutOptions {
+            fluid: if fluid {
+                FluidSide::Inside
+            } else {
+                FluidSide::Outside
+            },
+            ..Default::default()
+        };
+        let (out, v) = mesh(&s, lv, &opts);
+        // exact: the prism's part inside the box is side^2 (the prism spans z); the box rest
+        let want = if fluid {
+            side * side
+        } else {
+            1.0 - side * side
+        };
+        eprintln!("prism level {lv} inside {fluid}: fluid {v:.12} exact {want:.12}");
+        assert!((v - want).abs() < 1e-9, "level {lv}: fluid {v} vs {want}");
+        // every wall vertex on a side of the prism (box signed distance, common practice)
+        let m = &out.mesh;
+        let mut worst: f64 = 0.0;
+        for p in &m.patches {
+            if !matches!(p.kind, PatchKind::Wall { .. }) {
+                continue;
+            }
+            for f in p.start..p.start + p.count {
+                for &q in m.face(f as usize) {
+                    let l = rot_t * (m.points[q as usize] - centre);
+                    let d = (l.x.abs().max(l.y.abs()) - 0.5 * side).abs();
+                    worst = worst.max(d);
+                }
+            }
+        }
+        eprintln!(
+            "prism level {lv} inside {fluid}: worst wall vertex {:.3e} h",
+            worst / h
+        );
+        // the cut runs in a grid frame shifted by under 1e-6 h (see `grid_shift`)
         assert!(
-            worst <= 0.5 * h,
-            "level {lv}: a wall sample lies {:.4} h from the cube",
+            worst <= 2e-6 * h,
+            "level {lv}: a wall vertex {:.3e} h off",
             worst / h
         );
     }
@@ -345,7 +416,15 @@ fn domain_box_clips_a_body_on_the_floor() {
 #[test]
 fn output_is_identical_at_one_and_two_threads() {
     let t = torus(Vec3::new(0.5, 0.49, 0.51), 0.28, 0.1, 32, 16);
-    let index = SurfaceIndex::new(t);
+    // the rotated cube exercises pierce points, poke edges, edge splits and feature vertices
+    let c = rotated_cube(Vec3::new(0.5, 0.49, 0.51), 0.45, 0.4, 0.7);
+    for s in [t, c] {
+        same_at_one_and_two_threads(s);
+    }
+}
+
+fn same_at_one_and_two_threads(s: Surface) {
+    let index = SurfaceIndex::new(s);
     let tree = refined_tree(unit_domain(), &index, 5);
     let run = |n| {
         rayon::ThreadPoolBuilder::new()

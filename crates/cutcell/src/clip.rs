@@ -7,10 +7,18 @@
 //! Where the surface normals at the two crossings of a cut differ by more than the feature
 //! angle, the point where the body's sharp edge pierces the face (intersection of the two
 //! tangent planes with the face plane, as in dual contouring, Ju et al. 2002) is put into the
-//! cut path. Output per face: fluid polygons (oriented like the face) and directed cut paths
-//! ("chords", exit crossing to entry crossing, as the polygon traverses them).
+//! cut path; where that point is off the surface and a third facet near the face meets both
+//! planes on the surface (a body corner near the face), its two meeting points are. An edge
+//! whose two vertices share a class and that the surface crosses exactly twice with the other
+//! class between the hits (a sharp edge or a thin part poking through it, invisible to the
+//! vertex classes) is a "poke": both hits become shared points and every face through the
+//! edge clips as if a vertex of the other class sat between them, so the cells around the
+//! edge agree; such a face with several fluid runs is one region when a straight segment
+//! between two runs' fluid points misses the surface.
+//! Output per face: fluid polygons (oriented like the face) and directed cut paths ("chords",
+//! exit crossing to entry crossing, as the polygon traverses them).
 
-use crate::crossing::EdgeTable;
+use crate::crossing::{EdgeTable, T_EPS};
 use crate::topology::Topology;
 use octocut_octree::Domain;
 use octocut_surface::{SurfaceIndex, Vec3};
@@ -24,7 +32,12 @@ pub(crate) struct Clip {
     pub chord_off: Vec<u32>,
     pub chord_pts: Vec<u32>,
     pub chord_poly: Vec<u32>,
+    /// Extra points: first the poke points (two per poke edge), then the pierce points.
     pub pierce: Vec<Vec3>,
+    /// Unit surface normal and triangle of each poke point (the first entries of `pierce`).
+    pub poke_plane: Vec<(Vec3, u32)>,
+    /// Per entry of `pierce`: the two facet normals meeting there (zero for poke points).
+    pub pair: Vec<[Vec3; 2]>,
 }
 
 impl Clip {
@@ -36,6 +49,10 @@ impl Clip {
     }
     pub fn poly(&self, p: u32) -> &[u32] {
         &self.poly_pts[self.poly_off[p as usize] as usize..self.poly_off[p as usize + 1] as usize]
+    }
+    /// Normal and triangle of extra point `k` (index into `pierce`) if it is a poke point.
+    pub fn poke_plane(&self, k: u32) -> Option<(Vec3, u32)> {
+        self.poke_plane.get(k as usize).copied()
     }
     pub fn chord(&self, c: u32) -> &[u32] {
         &self.chord_pts
@@ -56,6 +73,22 @@ pub(crate) struct ClipCtx<'a> {
 }
 
 const LOCAL: u32 = 1 << 31;
+/// Flag of a virtual solid vertex between the two hits of poke `(x & !VIRT) >> 1`, low bit set
+/// when the face runs along the edge from its key's high end (grid ids stay below `1 << 30`).
+const VIRT: u32 = 1 << 30;
+
+/// Poke edges of the edge table (see the module doc).
+#[derive(Default)]
+struct Pokes {
+    /// Sorted edge-table indices.
+    edge: Vec<u32>,
+    /// Two hits per poke, from the key's low end: (point, unit normal, triangle).
+    hit: Vec<(Vec3, Vec3, u32)>,
+    /// Grid point ends some poke edge (empty without pokes).
+    vertex: Vec<bool>,
+    /// Point id of the first poke point.
+    base: u32,
+}
 
 #[derive(Default)]
 struct Chunk {
@@ -68,6 +101,10 @@ struct Chunk {
     /// polygon of each chord, as an index among its face's polygons
     chord_poly: Vec<u32>,
     pierce: Vec<Vec3>,
+    /// the two normals meeting at each pierce point
+    pair: Vec<[Vec3; 2]>,
+    found: Vec<(Vec3, [Vec3; 2])>,
+    tris: Vec<u32>,
 }
 
 struct Run {
@@ -88,6 +125,93 @@ impl ClipCtx<'_> {
         self.n_grid + c
     }
 
+    /// The crossing point between consecutive entries `a`, `b` of a face's (poked) vertex walk.
+    fn cross_between(&self, pk: &Pokes, a: u32, b: u32) -> u32 {
+        if b & VIRT != 0 {
+            // the hit nearer `a`, the start of the edge in face order
+            pk.base + (b & !VIRT)
+        } else if a & VIRT != 0 {
+            pk.base + ((a & !VIRT) ^ 1)
+        } else {
+            self.crossing_id(a, b)
+        }
+    }
+
+    /// Position and unit normal of a chord end (a crossing or a poke point).
+    fn plane(&self, pk: &Pokes, id: u32) -> (Vec3, Vec3) {
+        if id >= pk.base {
+            let h = pk.hit[(id - pk.base) as usize];
+            (h.0, h.1)
+        } else {
+            let c = &self.edges.crossings[(id - self.n_grid) as usize];
+            (c.point, c.normal)
+        }
+    }
+
+    /// The poke edges among the edge table's edges, their points numbered from `base`.
+    fn find_pokes(&self, base: u32) -> Pokes {
+        let e = self.edges;
+        let cand: Vec<u32> = (0..e.keys.len() as u32)
+            .into_par_iter()
+            .with_min_len(4096)
+            .filter(|&i| {
+                let k = e.keys[i as usize];
+                e.hits[i as usize] == 2
+                    && self.fluid[(k >> 32) as usize] == self.fluid[k as u32 as usize]
+            })
+            .collect();
+        let s = self.index.surface();
+        let found: Vec<Option<[(Vec3, Vec3, u32); 2]>> = cand
+            .par_iter()
+            .map_init(Vec::new, |buf, &i| {
+                let k = e.keys[i as usize];
+                let (a, b) = (self.gpos((k >> 32) as u32), self.gpos(k as u32));
+                self.index.segment_crossings(a, b, buf);
+                buf.dedup_by(|x, y| x.t == y.t);
+                if buf.len() != 2 {
+                    return None;
+                }
+                let t0 = buf[0].t.clamp(T_EPS, 1.0 - T_EPS);
+                let t1 = buf[1].t.clamp(T_EPS, 1.0 - T_EPS);
+                // the other class between the hits (one winding-number sample), hits apart
+                let end_fluid = self.fluid[(k >> 32) as usize];
+                let mid_fluid =
+                    self.index.is_inside(a + 0.5 * (t0 + t1) * (b - a)) == self.fluid_inside;
+                if t1 - t0 < T_EPS || mid_fluid == end_fluid {
+                    return None;
+                }
+                let hit = |t: f64, tri: u32| {
+                    let n = if (tri as usize) < s.triangles.len() {
+                        s.area_normal(tri as usize).normalize_or_zero()
+                    } else {
+                        Vec3::ZERO
+                    };
+                    (a + t * (b - a), n, tri)
+                };
+                Some([hit(t0, buf[0].triangle), hit(t1, buf[1].triangle)])
+            })
+            .collect();
+        let mut pk = Pokes {
+            base,
+            ..Default::default()
+        };
+        for (&i, h) in cand.iter().zip(found) {
+            if let Some(h) = h {
+                pk.edge.push(i);
+                pk.hit.extend_from_slice(&h);
+            }
+        }
+        if !pk.edge.is_empty() {
+            pk.vertex = vec![false; self.topo.grid.len()];
+            for &i in &pk.edge {
+                let k = e.keys[i as usize];
+                pk.vertex[(k >> 32) as usize] = true;
+                pk.vertex[k as u32 as usize] = true;
+            }
+        }
+        pk
+    }
+
     fn gpos(&self, p: u32) -> Vec3 {
         self.domain.point(self.topo.grid[p as usize])
     }
@@ -106,28 +230,46 @@ impl ClipCtx<'_> {
         self.index.is_inside(c) == self.fluid_inside
     }
 
-    /// The pierce point of the body's sharp edge between crossings `x` and `y` on face `f`.
-    fn pierce(&self, f: u32, pts: &[u32], x: u32, y: u32) -> Option<Vec3> {
-        let cx = &self.edges.crossings[(x - self.n_grid) as usize];
-        let cy = &self.edges.crossings[(y - self.n_grid) as usize];
-        if cx.normal.dot(cy.normal) >= self.cos_feature
-            || cx.normal == Vec3::ZERO
-            || cy.normal == Vec3::ZERO
-        {
-            return None;
+    /// Does the segment `a`-`b` miss the surface (a straight fluid path between two runs)?
+    fn straight_path(&self, a: Vec3, b: Vec3) -> bool {
+        let mut hits = Vec::new();
+        self.index.segment_crossings(a, b, &mut hits);
+        hits.is_empty()
+    }
+
+    /// The pierce points of the body's sharp edges between chord ends `x` and `y` (point, unit
+    /// normal) on face `f`, into `found` as (point, the two normals meeting there): one where
+    /// the two tangent planes meet on the face; two where a third facet lies between them (a
+    /// corner of the body near the face: the trace runs x, (1,3), (3,2), y).
+    fn pierce(
+        &self,
+        f: u32,
+        pts: &[u32],
+        x: (Vec3, Vec3),
+        y: (Vec3, Vec3),
+        found: &mut Vec<(Vec3, [Vec3; 2])>,
+        tris: &mut Vec<u32>,
+    ) {
+        found.clear();
+        let (px, nx) = x;
+        let (py, ny) = y;
+        if nx.dot(ny) >= self.cos_feature || nx == Vec3::ZERO || ny == Vec3::ZERO {
+            return;
         }
         let ax = self.topo.faces[f as usize].axis();
-        let p0 = self.gpos(pts[0]);
+        let d3 = self.gpos(pts[0])[ax];
         let mut n3 = Vec3::ZERO;
         n3[ax] = 1.0;
-        let (n1, n2) = (cx.normal, cy.normal);
-        let det = n1.dot(n2.cross(n3));
-        if det.abs() < 1e-6 {
-            return None;
-        }
-        let (d1, d2, d3) = (n1.dot(cx.point), n2.dot(cy.point), p0[ax]);
-        let p = (d1 * n2.cross(n3) + d2 * n3.cross(n1) + d3 * n1.cross(n2)) / det;
-        // strictly inside the face square, away from both crossings
+        // where the planes (n1, through q1) and (n2, through q2) meet the face plane
+        let meet = |n1: Vec3, q1: Vec3, n2: Vec3, q2: Vec3| {
+            let det = n1.dot(n2.cross(n3));
+            (det.abs() >= 1e-6).then(|| {
+                (n1.dot(q1) * n2.cross(n3) + n2.dot(q2) * n3.cross(n1) + d3 * n1.cross(n2)) / det
+            })
+        };
+        let Some(p) = meet(nx, px, ny, py) else {
+            return;
+        };
         let (mut lo, mut hi) = (Vec3::splat(f64::INFINITY), Vec3::splat(f64::NEG_INFINITY));
         for &q in pts {
             let g = self.gpos(q);
@@ -136,27 +278,102 @@ impl ClipCtx<'_> {
         }
         let h = (hi - lo).max_element();
         let m = 1e-3 * h;
+        // strictly inside the face square, away from the chord ends
+        let inside = |q: Vec3| {
+            (0..3).all(|i| i == ax || (q[i] >= lo[i] + m && q[i] <= hi[i] - m))
+                && (q - px).length() >= m
+                && (q - py).length() >= m
+        };
+        let on_surface = |q: Vec3| {
+            self.index
+                .closest_point(q)
+                .is_some_and(|c| c.distance <= 1e-6 * h)
+        };
+        if !(inside(p) && on_surface(p)) {
+            // a third facet between the two planes: try each distinct facet plane near the face
+            let s = self.index.surface();
+            let mut b = octocut_surface::Aabb::new(lo, hi);
+            b.min[ax] -= m;
+            b.max[ax] += m;
+            self.index.triangles_in_box(&b, tris);
+            for &t in tris.iter() {
+                let n = s.area_normal(t as usize).normalize_or_zero();
+                if n == Vec3::ZERO || n.dot(nx) >= self.cos_feature || n.dot(ny) >= self.cos_feature
+                {
+                    continue;
+                }
+                let q = s.corners(t as usize)[0];
+                let (Some(k1), Some(k2)) = (meet(nx, px, n, q), meet(n, q, ny, py)) else {
+                    continue;
+                };
+                if inside(k1)
+                    && inside(k2)
+                    && (k1 - k2).length() >= m
+                    && on_surface(k1)
+                    && on_surface(k2)
+                    && on_surface(0.5 * (k1 + k2))
+                {
+                    found.push((k1, [nx, n]));
+                    found.push((k2, [n, ny]));
+                    return;
+                }
+            }
+        }
         // a pierce point just outside the face (the sharp edge passes by) is pulled inside: the
         // chord then follows the edge's tip as the face clips it; far outside it is not used
         let mut p = p;
         for i in 0..3 {
             if i != ax {
                 if p[i] < lo[i] - 0.5 * h || p[i] > hi[i] + 0.5 * h {
-                    return None;
+                    return;
                 }
                 p[i] = p[i].clamp(lo[i] + m, hi[i] - m);
             }
         }
-        if (p - cx.point).length() < m || (p - cy.point).length() < m {
-            return None;
+        if (p - px).length() < m || (p - py).length() < m {
+            return;
         }
-        Some(p)
+        found.push((p, [nx, ny]));
     }
 
-    fn clip_face(&self, f: u32, out: &mut Chunk, runs: &mut Vec<Run>) {
+    fn clip_face(
+        &self,
+        f: u32,
+        out: &mut Chunk,
+        runs: &mut Vec<Run>,
+        aug: &mut Vec<u32>,
+        pk: &Pokes,
+    ) {
         let pts = self.topo.face(f);
-        let n = pts.len();
-        let nfl = pts.iter().filter(|&&p| self.fluid[p as usize]).count();
+        // the vertex walk, with a virtual vertex of the other class inside every poke edge
+        aug.clear();
+        if !pk.edge.is_empty() && pts.iter().any(|&p| pk.vertex[p as usize]) {
+            let n = pts.len();
+            for i in 0..n {
+                let (p, q) = (pts[i], pts[(i + 1) % n]);
+                aug.push(p);
+                if pk.vertex[p as usize] && pk.vertex[q as usize] {
+                    if let Some(e) = self.edges.find(p, q) {
+                        if let Ok(j) = pk.edge.binary_search(&(e as u32)) {
+                            aug.push(VIRT | (j as u32) << 1 | (p > q) as u32);
+                        }
+                    }
+                }
+            }
+        }
+        let poked = aug.len() > pts.len();
+        let seq: &[u32] = if poked { aug } else { pts };
+        let n = seq.len();
+        // a virtual vertex follows its edge's first end in the walk
+        let fl = |i: usize| {
+            let p = seq[i % n];
+            if p & VIRT == 0 {
+                self.fluid[p as usize]
+            } else {
+                !self.fluid[seq[(i + n - 1) % n] as usize]
+            }
+        };
+        let nfl = (0..n).filter(|&i| fl(i)).count();
         if nfl == 0 {
             out.n_polys.push(0);
             out.n_chords.push(0);
@@ -169,7 +386,6 @@ impl ClipCtx<'_> {
             out.n_chords.push(0);
             return;
         }
-        let fl = |i: usize| self.fluid[pts[i % n] as usize];
         let s = (0..n).find(|&i| !fl(i + n - 1) && fl(i)).unwrap();
         runs.clear();
         let mut i = s;
@@ -180,8 +396,8 @@ impl ClipCtx<'_> {
                     i += 1;
                 }
                 let end = i;
-                let entry = self.crossing_id(pts[(start + n - 1) % n], pts[start % n]);
-                let exit = self.crossing_id(pts[end % n], pts[(end + 1) % n]);
+                let entry = self.cross_between(pk, seq[(start + n - 1) % n], seq[start % n]);
+                let exit = self.cross_between(pk, seq[end % n], seq[(end + 1) % n]);
                 runs.push(Run {
                     entry,
                     exit,
@@ -192,39 +408,74 @@ impl ClipCtx<'_> {
             i += 1;
         }
         let k = runs.len();
-        let single = k == 1 || self.centre_fluid(pts);
+        // a run of one virtual fluid vertex: its polygon needs a point besides the two hits
+        let lone = |r: &Run| r.start == r.end && seq[r.start % n] & VIRT != 0;
+        // a fluid point of a run: its first vertex, or the middle of its poke interval
+        let inner = |r: &Run| {
+            if lone(r) {
+                0.5 * (self.plane(pk, r.entry).0 + self.plane(pk, r.exit).0)
+            } else {
+                self.gpos(seq[r.start % n])
+            }
+        };
+        // ambiguous: one fluid region when the centre is fluid; with pokes, when a straight
+        // fluid path joins the first two runs
+        let single = k == 1
+            || if poked {
+                self.straight_path(inner(&runs[0]), inner(&runs[1]))
+            } else {
+                self.centre_fluid(pts)
+            };
         let push_run = |out: &mut Chunk, r: &Run| {
             out.poly_pts.push(r.entry);
             for j in r.start..=r.end {
-                out.poly_pts.push(pts[j % n]);
+                if seq[j % n] & VIRT == 0 {
+                    out.poly_pts.push(seq[j % n]);
+                }
             }
             out.poly_pts.push(r.exit);
         };
-        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, allow_pierce: bool| -> u32 {
+        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, pierce: bool, lone: bool| {
             out.chord_pts.push(x);
             let mut len = 2;
-            let mut extra = 0;
-            if allow_pierce && self.pierce_cuts {
-                if let Some(p) = self.pierce(f, pts, x, y) {
+            if (pierce && self.pierce_cuts) || lone {
+                let mut found = std::mem::take(&mut out.found);
+                let mut tris = std::mem::take(&mut out.tris);
+                let (px, py) = (self.plane(pk, x), self.plane(pk, y));
+                self.pierce(f, pts, px, py, &mut found, &mut tris);
+                if found.is_empty() && lone {
+                    // no pierce point: a point just inside the face off the hits' midpoint
+                    let mid = 0.5 * (px.0 + py.0);
+                    let mut c = Vec3::ZERO;
+                    for &q in pts {
+                        c += self.gpos(q);
+                    }
+                    let c = c / pts.len() as f64;
+                    let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
+                    let p = mid + (c - mid).normalize_or_zero() * 1e-3 * h;
+                    found.push((p, [Vec3::ZERO; 2]));
+                }
+                for &(p, pair) in &found {
                     let id = LOCAL | out.pierce.len() as u32;
                     out.pierce.push(p);
+                    out.pair.push(pair);
                     out.chord_pts.push(id);
                     out.poly_pts.push(id);
                     len += 1;
-                    extra = 1;
                 }
+                out.found = found;
+                out.tris = tris;
             }
             out.chord_pts.push(y);
             out.chord_len.push(len);
             out.chord_poly.push(poly);
-            extra
         };
         if single {
             let before = out.poly_pts.len();
             for (j, r) in runs.iter().enumerate() {
                 push_run(out, r);
                 let next = &runs[(j + 1) % k];
-                chord(out, r.exit, next.entry, 0, k == 1);
+                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && lone(r));
             }
             out.n_polys.push(1);
             out.poly_len.push((out.poly_pts.len() - before) as u32);
@@ -233,7 +484,7 @@ impl ClipCtx<'_> {
             for (j, r) in runs.iter().enumerate() {
                 let before = out.poly_pts.len();
                 push_run(out, r);
-                chord(out, r.exit, r.entry, j as u32, false);
+                chord(out, r.exit, r.entry, j as u32, false, lone(r));
                 out.poly_len.push((out.poly_pts.len() - before) as u32);
             }
             out.n_polys.push(k as u32);
@@ -243,14 +494,15 @@ impl ClipCtx<'_> {
 
     pub fn run(&self, pierce_base: u32) -> Clip {
         let nf = self.topo.faces.len() as u32;
+        let pk = self.find_pokes(pierce_base);
         let ids: Vec<u32> = (0..nf).collect();
         let chunks: Vec<Chunk> = ids
             .par_chunks(2048)
             .map(|fs| {
                 let mut out = Chunk::default();
-                let mut runs = Vec::new();
+                let (mut runs, mut aug) = (Vec::new(), Vec::new());
                 for &f in fs {
-                    self.clip_face(f, &mut out, &mut runs);
+                    self.clip_face(f, &mut out, &mut runs, &mut aug, &pk);
                 }
                 out
             })
@@ -263,7 +515,9 @@ impl ClipCtx<'_> {
             chord_off: vec![0],
             chord_pts: Vec::new(),
             chord_poly: Vec::new(),
-            pierce: Vec::new(),
+            pierce: pk.hit.iter().map(|h| h.0).collect(),
+            poke_plane: pk.hit.iter().map(|h| (h.1, h.2)).collect(),
+            pair: vec![[Vec3::ZERO; 2]; pk.hit.len()],
         };
         c.face_poly.push(0);
         c.face_chord.push(0);
@@ -277,6 +531,7 @@ impl ClipCtx<'_> {
         for ch in chunks {
             let base = c.pierce.len() as u32;
             c.pierce.extend_from_slice(&ch.pierce);
+            c.pair.extend_from_slice(&ch.pair);
             let mut pl = ch.poly_len.iter();
             let mut cl = ch.chord_len.iter();
             let mut cp = ch.chord_poly.iter();
