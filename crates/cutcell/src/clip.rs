@@ -38,6 +38,8 @@ pub(crate) struct Clip {
     pub poke_plane: Vec<(Vec3, u32)>,
     /// Per entry of `pierce`: the two facet normals meeting there (zero for poke points).
     pub pair: Vec<[Vec3; 2]>,
+    /// Faces whose lone runs gave up the sharp edge's pierce point to stay disjoint.
+    pub fallbacks: usize,
 }
 
 impl Clip {
@@ -105,6 +107,38 @@ struct Chunk {
     pair: Vec<[Vec3; 2]>,
     found: Vec<(Vec3, [Vec3; 2])>,
     tris: Vec<u32>,
+    /// faces whose lone runs fell back to the points beside their hits
+    fallbacks: usize,
+}
+
+/// Output lengths of a [`Chunk`] before a face, to undo the face.
+struct Mark {
+    poly_len: usize,
+    poly_pts: usize,
+    chord_len: usize,
+    chord_pts: usize,
+    pierce: usize,
+}
+
+impl Chunk {
+    fn mark(&self) -> Mark {
+        Mark {
+            poly_len: self.poly_len.len(),
+            poly_pts: self.poly_pts.len(),
+            chord_len: self.chord_len.len(),
+            chord_pts: self.chord_pts.len(),
+            pierce: self.pierce.len(),
+        }
+    }
+    fn rollback(&mut self, m: &Mark) {
+        self.poly_len.truncate(m.poly_len);
+        self.poly_pts.truncate(m.poly_pts);
+        self.chord_len.truncate(m.chord_len);
+        self.chord_poly.truncate(m.chord_len);
+        self.chord_pts.truncate(m.chord_pts);
+        self.pierce.truncate(m.pierce);
+        self.pair.truncate(m.pierce);
+    }
 }
 
 struct Run {
@@ -210,6 +244,90 @@ impl ClipCtx<'_> {
             }
         }
         pk
+    }
+
+    /// Position of a point id of a face being clipped into `out`.
+    fn pos(&self, pk: &Pokes, out: &Chunk, id: u32) -> Vec3 {
+        if id & LOCAL != 0 {
+            out.pierce[(id & !LOCAL) as usize]
+        } else if id >= self.n_grid {
+            self.plane(pk, id).0
+        } else {
+            self.gpos(id)
+        }
+    }
+
+    /// Are the `k` polygons of face `f` pushed since `mark` pairwise apart (no edges meeting,
+    /// none inside another, no vertex within `1e-7` face edges of another's edge)? Signs by
+    /// the exact 2D orientation predicate in the face plane.
+    fn disjoint(&self, f: u32, pk: &Pokes, out: &Chunk, mark: &Mark, k: usize) -> bool {
+        use octocut_surface::predicates::orient2d;
+        let ax = self.topo.faces[f as usize].axis();
+        let (u, v) = ((ax + 1) % 3, (ax + 2) % 3);
+        let pts = self.topo.face(f);
+        let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
+        let tol = 1e-7 * h;
+        let mut polys: Vec<Vec<[f64; 2]>> = Vec::with_capacity(k);
+        let mut off = mark.poly_pts;
+        for &len in &out.poly_len[mark.poly_len..] {
+            let ids = &out.poly_pts[off..off + len as usize];
+            off += len as usize;
+            polys.push(
+                ids.iter()
+                    .map(|&id| {
+                        let p = self.pos(pk, out, id);
+                        [p[u], p[v]]
+                    })
+                    .collect(),
+            );
+        }
+        let near_seg = |p: [f64; 2], a: [f64; 2], b: [f64; 2]| {
+            let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+            let l2 = dx * dx + dy * dy;
+            let t = if l2 > 0.0 {
+                (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / l2).clamp(0.0, 1.0)
+            } else {
+                0.0
+            };
+            let (ex, ey) = (a[0] + t * dx - p[0], a[1] + t * dy - p[1]);
+            ex * ex + ey * ey <= tol * tol
+        };
+        let cross = |a: [f64; 2], b: [f64; 2], c: [f64; 2], d: [f64; 2]| {
+            let (o1, o2) = (orient2d(a, b, c), orient2d(a, b, d));
+            let (o3, o4) = (orient2d(c, d, a), orient2d(c, d, b));
+            o1 * o2 <= 0 && o3 * o4 <= 0 && (o1, o2, o3, o4) != (0, 0, 0, 0)
+        };
+        // crossing-number test, exact signs
+        let inside = |p: [f64; 2], q: &[[f64; 2]]| {
+            let mut w = 0i32;
+            for i in 0..q.len() {
+                let (a, b) = (q[i], q[(i + 1) % q.len()]);
+                if a[1] <= p[1] && b[1] > p[1] && orient2d(a, b, p) > 0 {
+                    w += 1;
+                } else if a[1] > p[1] && b[1] <= p[1] && orient2d(a, b, p) < 0 {
+                    w -= 1;
+                }
+            }
+            w != 0
+        };
+        for i in 0..polys.len() {
+            for j in i + 1..polys.len() {
+                let (p, q) = (&polys[i], &polys[j]);
+                if inside(p[0], q) || inside(q[0], p) {
+                    return false;
+                }
+                for a in 0..p.len() {
+                    let (a0, a1) = (p[a], p[(a + 1) % p.len()]);
+                    for b in 0..q.len() {
+                        let (b0, b1) = (q[b], q[(b + 1) % q.len()]);
+                        if cross(a0, a1, b0, b1) || near_seg(a0, b0, b1) || near_seg(b0, a0, a1) {
+                            return false;
+                        }
+                    }
+                }
+            }
+        }
+        true
     }
 
     fn gpos(&self, p: u32) -> Vec3 {
@@ -435,57 +553,73 @@ impl ClipCtx<'_> {
             }
             out.poly_pts.push(r.exit);
         };
-        let chord = |out: &mut Chunk, x: u32, y: u32, poly: u32, pierce: bool, lone: bool| {
-            out.chord_pts.push(x);
-            let mut len = 2;
-            if (pierce && self.pierce_cuts) || lone {
-                let mut found = std::mem::take(&mut out.found);
-                let mut tris = std::mem::take(&mut out.tris);
-                let (px, py) = (self.plane(pk, x), self.plane(pk, y));
-                self.pierce(f, pts, px, py, &mut found, &mut tris);
-                if found.is_empty() && lone {
-                    // no pierce point: a point just inside the face off the hits' midpoint
-                    let mid = 0.5 * (px.0 + py.0);
-                    let mut c = Vec3::ZERO;
-                    for &q in pts {
-                        c += self.gpos(q);
+        // `near`: a lone run takes the point beside its hits, not the sharp edge's pierce point
+        let chord =
+            |out: &mut Chunk, x: u32, y: u32, poly: u32, pierce: bool, lone: bool, near: bool| {
+                out.chord_pts.push(x);
+                let mut len = 2;
+                if (pierce && self.pierce_cuts) || lone {
+                    let mut found = std::mem::take(&mut out.found);
+                    let mut tris = std::mem::take(&mut out.tris);
+                    let (px, py) = (self.plane(pk, x), self.plane(pk, y));
+                    found.clear();
+                    if !near {
+                        self.pierce(f, pts, px, py, &mut found, &mut tris);
                     }
-                    let c = c / pts.len() as f64;
-                    let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
-                    let p = mid + (c - mid).normalize_or_zero() * 1e-3 * h;
-                    found.push((p, [Vec3::ZERO; 2]));
+                    if found.is_empty() && lone {
+                        // no pierce point: a point just inside the face off the hits' midpoint
+                        let mid = 0.5 * (px.0 + py.0);
+                        let mut c = Vec3::ZERO;
+                        for &q in pts {
+                            c += self.gpos(q);
+                        }
+                        let c = c / pts.len() as f64;
+                        let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
+                        let p = mid + (c - mid).normalize_or_zero() * 1e-3 * h;
+                        found.push((p, [Vec3::ZERO; 2]));
+                    }
+                    for &(p, pair) in &found {
+                        let id = LOCAL | out.pierce.len() as u32;
+                        out.pierce.push(p);
+                        out.pair.push(pair);
+                        out.chord_pts.push(id);
+                        out.poly_pts.push(id);
+                        len += 1;
+                    }
+                    out.found = found;
+                    out.tris = tris;
                 }
-                for &(p, pair) in &found {
-                    let id = LOCAL | out.pierce.len() as u32;
-                    out.pierce.push(p);
-                    out.pair.push(pair);
-                    out.chord_pts.push(id);
-                    out.poly_pts.push(id);
-                    len += 1;
-                }
-                out.found = found;
-                out.tris = tris;
-            }
-            out.chord_pts.push(y);
-            out.chord_len.push(len);
-            out.chord_poly.push(poly);
-        };
+                out.chord_pts.push(y);
+                out.chord_len.push(len);
+                out.chord_poly.push(poly);
+            };
         if single {
             let before = out.poly_pts.len();
             for (j, r) in runs.iter().enumerate() {
                 push_run(out, r);
                 let next = &runs[(j + 1) % k];
-                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && lone(r));
+                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && lone(r), false);
             }
             out.n_polys.push(1);
             out.poly_len.push((out.poly_pts.len() - before) as u32);
             out.n_chords.push(k as u32);
         } else {
-            for (j, r) in runs.iter().enumerate() {
-                let before = out.poly_pts.len();
-                push_run(out, r);
-                chord(out, r.exit, r.entry, j as u32, false, lone(r));
-                out.poly_len.push((out.poly_pts.len() - before) as u32);
+            // separate runs must stay disjoint: a lone run's pierce point lies anywhere on the
+            // face and its polygon may overlap another run's (a sharp edge nearly in the face
+            // plane); then every lone run of the face takes the point beside its hits instead
+            let mark = out.mark();
+            for near in [false, true] {
+                for (j, r) in runs.iter().enumerate() {
+                    let before = out.poly_pts.len();
+                    push_run(out, r);
+                    chord(out, r.exit, r.entry, j as u32, false, lone(r), near);
+                    out.poly_len.push((out.poly_pts.len() - before) as u32);
+                }
+                if near || !runs.iter().any(lone) || self.disjoint(f, pk, out, &mark, k) {
+                    break;
+                }
+                out.rollback(&mark);
+                out.fallbacks += 1;
             }
             out.n_polys.push(k as u32);
             out.n_chords.push(k as u32);
@@ -518,6 +652,7 @@ impl ClipCtx<'_> {
             pierce: pk.hit.iter().map(|h| h.0).collect(),
             poke_plane: pk.hit.iter().map(|h| (h.1, h.2)).collect(),
             pair: vec![[Vec3::ZERO; 2]; pk.hit.len()],
+            fallbacks: chunks.iter().map(|c| c.fallbacks).sum(),
         };
         c.face_poly.push(0);
         c.face_chord.push(0);

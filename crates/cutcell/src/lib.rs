@@ -157,6 +157,9 @@ pub struct CutReport {
     /// "Feature below cell size" warnings (at most [`MAX_WARNINGS`] listed).
     pub warnings: Vec<CellWarning>,
     pub warnings_total: usize,
+    /// Faces where a sharp edge's pierce point was dropped to keep the face's parts disjoint.
+    #[serde(default)]
+    pub sharp_fallbacks: usize,
 }
 
 /// Most warnings listed in a report; the total is always counted.
@@ -351,6 +354,7 @@ pub fn cut_cells_with_regions(
             }
         }
     }
+    report.sharp_fallbacks = clip.fallbacks;
     report.fluid_leaves = status.iter().filter(|&&s| s == FLUID).count();
     report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();

@@ -107,6 +107,16 @@ pub(crate) struct CellCtx<'a> {
     pub cos_feature: f64,
 }
 
+/// Do all points `p` lie on one face plane of `cell` (edge `h`)? Points on the leaf's boundary
+/// sit on it to round-off, and every point off a face plane is at least `T_EPS h` from it.
+fn on_one_face(cell: &Aabb, h: f64, p: &[Vec3]) -> bool {
+    let tol = 1e-6 * h;
+    (0..3).any(|a| {
+        p.iter().all(|q| (q[a] - cell.min[a]).abs() <= tol)
+            || p.iter().all(|q| (q[a] - cell.max[a]).abs() <= tol)
+    })
+}
+
 #[inline]
 fn fan_volume(p: &[Vec3], r: Vec3) -> f64 {
     let mut v = 0.0;
@@ -456,7 +466,11 @@ impl CellCtx<'_> {
                     .iter()
                     .all(|p| nn.dot(*p - s.pos[0]).abs() <= 1e-9 * h)
         };
-        if m == 3 && !feature || planar && !mixed {
+        // a loop lying in one face plane of the leaf is not emitted as it stands: the cell on
+        // the other side sees the same points and would emit the same face (the apex, strictly
+        // inside the leaf, lifts the fan off the plane)
+        let flat = on_one_face(cell, h, &s.pos);
+        if (m == 3 && !feature || planar && !mixed) && !flat {
             out.wall_pts.extend_from_slice(ids);
             out.wall_len.push(m as u32);
             out.wall_piece.push(piece);
@@ -491,10 +505,15 @@ impl CellCtx<'_> {
             .unwrap_or((0, f64::INFINITY));
         if apex != wanted && dn < 1e-3 * h {
             let p0 = s.pos[kn];
-            let fan_ok = (1..m - 1).all(|i| {
-                let (a, b) = (s.pos[(kn + i) % m], s.pos[(kn + i + 1) % m]);
-                (a - p0).cross(b - p0).length() > 1e-6 * h * h
-            });
+            // no sliver, and no diagonal from the fan point lying in a face plane of the leaf:
+            // there it could pass through another loop point (a T-junction) or bound a
+            // triangle that the neighbour's wall repeats
+            let fan_ok = !flat
+                && (1..m - 1).all(|i| {
+                    let (a, b) = (s.pos[(kn + i) % m], s.pos[(kn + i + 1) % m]);
+                    (a - p0).cross(b - p0).length() > 1e-6 * h * h
+                })
+                && (2..m - 1).all(|i| !on_one_face(cell, h, &[p0, s.pos[(kn + i) % m]]));
             if fan_ok {
                 for i in 1..m - 1 {
                     let (ia, ib) = ((kn + i) % m, (kn + i + 1) % m);
