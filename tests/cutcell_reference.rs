@@ -448,3 +448,85 @@ fn same_at_one_and_two_threads(s: Surface) {
     assert_eq!(a.mesh.patches, b.mesh.patches);
     assert_eq!(a.report, b.report);
 }
+
+/// Meshes `s` (refined to `level`, fluid inside) and requires the volume-mesh validator and the
+/// independent check to pass; returns the fluid volume.
+fn valid_inside(s: &Surface, level: u8) -> f64 {
+    let opts = CutOptions {
+        fluid: FluidSide::Inside,
+        ..Default::default()
+    };
+    let (out, v) = mesh(s, level, &opts);
+    let r = out.mesh.validate();
+    assert!(
+        r.is_valid(),
+        "level {level}: {:?} (sharp-edge fallbacks {})",
+        r.problems.first(),
+        out.report.sharp_fallbacks
+    );
+    v
+}
+
+#[test]
+fn prism_resting_on_a_box_top_in_a_grid_plane_stays_valid() {
+    // regression: a turned prism standing on a cuboid whose top lies in a grid plane (z = 0.5
+    // at level 3); before the fix a wall fan of two cells on either side of a face had a
+    // triangle in the face plane made of that face's cut points, so both cells emitted it
+    // (DuplicateFace)
+    let (lo, hi) = (
+        Vec3::new(0.2592564761784898, 0.2762762485640857, 0.2),
+        Vec3::new(0.7134066235718481, 0.7044208242350701, 0.5),
+    );
+    let (side, turn, ztop) = (0.16506818833718784, 1.4865251623643325, 0.7694995300195527);
+    let centre = Vec3::new(0.5289836014398379, 0.5365373806805865, 0.5 * (0.5 + ztop));
+    let mut s = Surface::unit_cube();
+    for p in &mut s.vertices {
+        *p = lo + *p * (hi - lo);
+    }
+    let mut prism = Surface::unit_cube();
+    let rot = glam::DMat3::from_rotation_z(turn);
+    for p in &mut prism.vertices {
+        let q = (*p - Vec3::splat(0.5)) * Vec3::new(side, side, ztop - 0.5);
+        *p = centre + rot * q;
+    }
+    s.append(prism);
+    // exact: the two solids touch along the prism's base only, so the union's volume is the
+    // sum of the cuboid's and the prism's
+    let want = (hi - lo).element_product() + side * side * (ztop - 0.5);
+    for lv in [3u8, 4] {
+        let v = valid_inside(&s, lv);
+        eprintln!("prism on box level {lv}: fluid {v:.9} exact {want:.9}");
+        assert!((v - want).abs() < 1e-3 * want, "level {lv}: {v} vs {want}");
+    }
+}
+
+#[test]
+fn two_overlapping_rotated_cubes_stay_valid() {
+    // regression: the concave edges where two rotated cubes intersect, fluid inside; before the
+    // fix a wall fan diagonal lay in a face plane through another cut point (VertexOnEdge)
+    let c1 = Vec3::new(0.41812720983398116, 0.4554723096132617, 0.5241016390964719);
+    let ang = [
+        0.03517768541210764,
+        0.2552845462313291,
+        0.5346793961609182,
+        2.995306921241081,
+    ];
+    let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
+    s.append(rotated_cube(
+        c1 + Vec3::new(0.2, 0.05, 0.02),
+        0.22,
+        ang[2],
+        ang[3],
+    ));
+    let (v1, v2) = (0.25f64.powi(3), 0.22f64.powi(3));
+    for lv in [4u8, 5] {
+        let v = valid_inside(&s, lv);
+        eprintln!(
+            "two cubes level {lv}: fluid {v:.9}, bounds [{:.9}, {:.9}]",
+            v1,
+            v1 + v2
+        );
+        // exact: a union's volume lies between the larger part's and the sum of both
+        assert!(v > v1.max(v2) && v < v1 + v2, "level {lv}: {v}");
+    }
+}
