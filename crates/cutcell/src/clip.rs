@@ -528,6 +528,26 @@ impl ClipCtx<'_> {
         let k = runs.len();
         // a run of one virtual fluid vertex: its polygon needs a point besides the two hits
         let lone = |r: &Run| r.start == r.end && seq[r.start % n] & VIRT != 0;
+        // a run of one hanging vertex on a straight side of the face (its walk neighbours in
+        // line with it) would be a zero-area polygon: like a lone run it takes a point inside
+        let thin = |r: &Run| {
+            lone(r)
+                || r.start == r.end && {
+                    let at = |i: usize| seq[i % n];
+                    let (a, b, c) = (at(r.start + n - 1), at(r.start), at(r.start + 1));
+                    a & VIRT == 0 && c & VIRT == 0 && {
+                        let g = |p: u32| self.topo.grid[p as usize].map(|x| x as i64);
+                        let (ga, gb, gc) = (g(a), g(b), g(c));
+                        let (u, w) = (
+                            [0, 1, 2].map(|i| gb[i] - ga[i]),
+                            [0, 1, 2].map(|i| gc[i] - gb[i]),
+                        );
+                        (0..3).all(|i| {
+                            u[(i + 1) % 3] * w[(i + 2) % 3] == u[(i + 2) % 3] * w[(i + 1) % 3]
+                        })
+                    }
+                }
+        };
         // a fluid point of a run: its first vertex, or the middle of its poke interval
         let inner = |r: &Run| {
             if lone(r) {
@@ -598,7 +618,7 @@ impl ClipCtx<'_> {
             for (j, r) in runs.iter().enumerate() {
                 push_run(out, r);
                 let next = &runs[(j + 1) % k];
-                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && lone(r), false);
+                chord(out, r.exit, next.entry, 0, k == 1, k == 1 && thin(r), false);
             }
             out.n_polys.push(1);
             out.poly_len.push((out.poly_pts.len() - before) as u32);
@@ -612,10 +632,10 @@ impl ClipCtx<'_> {
                 for (j, r) in runs.iter().enumerate() {
                     let before = out.poly_pts.len();
                     push_run(out, r);
-                    chord(out, r.exit, r.entry, j as u32, false, lone(r), near);
+                    chord(out, r.exit, r.entry, j as u32, false, thin(r), near);
                     out.poly_len.push((out.poly_pts.len() - before) as u32);
                 }
-                if near || !runs.iter().any(lone) || self.disjoint(f, pk, out, &mark, k) {
+                if near || !runs.iter().any(thin) || self.disjoint(f, pk, out, &mark, k) {
                     break;
                 }
                 out.rollback(&mark);
