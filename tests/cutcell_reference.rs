@@ -530,3 +530,29 @@ fn two_overlapping_rotated_cubes_stay_valid() {
         assert!(v > v1.max(v2) && v < v1 + v2, "level {lv}: {v}");
     }
 }
+
+#[test]
+fn drone_demo_at_base_size_019_validates() {
+    // regression: the project's own drone demo at base_size 0.19 had a fluid hanging vertex on
+    // a straight face side between two solid ones (the surface through it), a zero-area face
+    // polygon (VertexOnEdge); the pipeline validates every mesh and fails on any defect
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-geometry");
+    let file = dir.join("drone.toml");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let text: String = text
+        .lines()
+        .map(|l| {
+            if l.starts_with("base_size = ") {
+                "base_size = 0.19".to_string()
+            } else {
+                l.to_string()
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    let spec = octocut::CaseSpec::from_toml_str(&text, &file).unwrap();
+    let m = octocut::pipeline::Mesher::load(&spec).unwrap();
+    let out = m.mesh(&spec, &octocut::stages::Hooks::default());
+    let out = out.unwrap_or_else(|e| panic!("drone at base 0.19: {e}"));
+    assert!(out.report.valid);
+}
