@@ -529,6 +529,25 @@ fn two_overlapping_rotated_cubes_stay_valid() {
         // exact: a union's volume lies between the larger part's and the sum of both
         assert!(v > v1.max(v2) && v < v1 + v2, "level {lv}: {v}");
     }
+    // regression: two pieces of one leaf meeting along the concave edge; one piece's feature
+    // vertex lay on the other piece's wall edge along that edge (VertexOnEdge at level 5)
+    let c1 = Vec3::new(0.42889475159411794, 0.47002568278203216, 0.5152975598267014);
+    let ang = [
+        1.2688951476316088,
+        1.439943900681992,
+        0.680349332497181,
+        2.610248150182177,
+    ];
+    let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
+    s.append(rotated_cube(
+        c1 + Vec3::new(0.2, 0.05, 0.02),
+        0.22,
+        ang[2],
+        ang[3],
+    ));
+    let v = valid_inside(&s, 5);
+    eprintln!("two cubes (second pair) level 5: fluid {v:.9}");
+    assert!(v > v1.max(v2) && v < v1 + v2, "{v}");
 }
 
 #[test]

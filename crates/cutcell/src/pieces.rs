@@ -262,12 +262,101 @@ impl CellCtx<'_> {
             out.piece_volume[(first + pc) as usize] += if is_e { v } else { -v };
         }
         out.n_pieces.push(n_pieces);
+        let (np0, nw0, wp0) = (out.new_pts.len(), out.wall_len.len(), out.wall_pts.len());
         for l in 0..s.loop_elem.len() {
             let root = s.uf.0.find(s.loop_elem[l]) as usize;
             let pc = first + s.piece_of[root];
             let lp = s.loop_off[l] as usize..s.loop_off[l + 1] as usize;
             let v = self.emit_wall(s, lp, pc, &cell, h, r, out);
             out.piece_volume[pc as usize] += v;
+        }
+        if n_pieces > 1 && out.new_pts.len() > np0 {
+            self.separate_apexes(np0, nw0, wp0, &cell, h, r, out);
+        }
+    }
+
+    /// Pieces of one leaf may meet along a sharp edge (a concave edge between two bodies):
+    /// an apex of one piece on that edge can lie on a wall edge of another piece (a
+    /// T-junction). Such an apex moves `1e-3 h` towards its own wall's vertex mean, the
+    /// piece volume following.
+    #[allow(clippy::too_many_arguments)]
+    fn separate_apexes(
+        &self,
+        np0: usize,
+        nw0: usize,
+        wp0: usize,
+        cell: &Aabb,
+        h: f64,
+        r: Vec3,
+        out: &mut CutChunk,
+    ) {
+        let pos = |out: &CutChunk, id: u32| {
+            if id & LOCAL != 0 {
+                out.new_pts[(id & !LOCAL) as usize]
+            } else {
+                self.pts.get(id)
+            }
+        };
+        let inner = cell.inflated(-crate::crossing::T_EPS * h);
+        for k in np0..out.new_pts.len() {
+            let a = LOCAL | k as u32;
+            let pa = out.new_pts[k];
+            // the apex's piece, its wall's vertex mean, and whether another piece's wall edge
+            // runs through it
+            let (mut piece, mut mean, mut n, mut hit) = (u32::MAX, Vec3::ZERO, 0.0, false);
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let f = &out.wall_pts[off..off + out.wall_len[w] as usize];
+                off += f.len();
+                if f.contains(&a) {
+                    piece = out.wall_piece[w];
+                    for &q in f.iter().filter(|&&q| q != a) {
+                        mean += pos(out, q);
+                        n += 1.0;
+                    }
+                }
+            }
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let f = &out.wall_pts[off..off + out.wall_len[w] as usize];
+                off += f.len();
+                if out.wall_piece[w] == piece || f.contains(&a) {
+                    continue;
+                }
+                for i in 0..f.len() {
+                    let (p, q) = (pos(out, f[i]), pos(out, f[(i + 1) % f.len()]));
+                    let d = q - p;
+                    let t = (pa - p).dot(d) / d.length_squared().max(f64::MIN_POSITIVE);
+                    if t > 0.0 && t < 1.0 && (p + t * d - pa).length() <= 1e-7 * h {
+                        hit = true;
+                    }
+                }
+            }
+            if !hit || n == 0.0 {
+                continue;
+            }
+            let to = (mean / n - pa).normalize_or_zero();
+            let moved = (pa + 1e-3 * h * to).clamp(inner.min, inner.max);
+            // volume change of the apex's fan triangles
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let len = out.wall_len[w] as usize;
+                let f = &out.wall_pts[off..off + len];
+                off += len;
+                if !f.contains(&a) {
+                    continue;
+                }
+                let at = |x: Vec3| {
+                    let v: Vec<Vec3> = f
+                        .iter()
+                        .map(|&q| if q == a { x } else { pos(out, q) })
+                        .collect();
+                    fan_volume(&v, r)
+                };
+                let dv = at(moved) - at(pa);
+                out.piece_volume[out.wall_piece[w] as usize] += dv;
+            }
+            out.new_pts[k] = moved;
         }
     }
 
