@@ -111,7 +111,23 @@ fn rotated_cube_volume_converges_second_order() {
     let c = rotated_cube(Vec3::new(0.5, 0.49, 0.51), a, 0.4, 0.7);
     // exact: cube a^3 (rotation keeps volume)
     let o = volume_convergence("cube", &c, a.powi(3), [4, 5, 6], &CutOptions::default());
-    check_order("cube", &o, 1.8);
+    // the walls follow the flat facets, edges and corners exactly except where a corner or an
+    // edge tip pokes through a face between grid vertices, so the error is no smooth O(h^2)
+    // term and the step orders scatter (observed errors 6.3e-6, 2.4e-8, 6.9e-8): asserted is
+    // that every level stays within the second-order envelope of the coarsest one,
+    // |e_l| <= 1.5 |e_4| 4^-(l - 4)
+    let mut e = o.iter().scan(0.0, |acc, x| {
+        *acc += x;
+        Some(*acc)
+    });
+    for l in 1..=2 {
+        let gained = e.next().unwrap();
+        assert!(
+            gained >= 2.0 * l as f64 - 1.5f64.log2(),
+            "cube: error at level {} only {gained:.2} halvings below level 4 (orders {o:?})",
+            4 + l
+        );
+    }
 }
 
 #[test]
@@ -185,18 +201,73 @@ fn rotated_cube_walls_follow_edges_and_corners() {
             100.0 * share,
             worst / h
         );
-        // Known gap: where a cube edge passes a cell without piercing the face between two
-        // crossings (or close to a grid vertex) the fan still cuts the edge; observed 3.1 % of
-        // samples beyond 0.05 h at level 4 and 2.3 % at level 5, worst 0.33 h and 0.36 h.
-        // Asserted: at least 95 % within 0.05 h, all within 0.5 h.
+        // required: every sample within 0.05 h (one-sided Hausdorff distance of the walls to
+        // the cube); observed worst 0.032 h at level 4 and 0.042 h at level 5, where a cube
+        // corner just outside a cell pokes through the face between its vertices
         assert!(
-            share <= 0.05,
-            "level {lv}: {:.2} % of wall samples beyond 0.05 h",
-            100.0 * share
+            far == 0 && worst <= 0.05 * h,
+            "level {lv}: {:.2} % of wall samples beyond 0.05 h, worst {:.4} h",
+            100.0 * share,
+            worst / h
         );
+    }
+}
+
+#[test]
+fn prism_edges_through_grid_edges_are_exact() {
+    // a square prism standing through the whole box, turned about z: its four vertical edges
+    // poke through many grid edges between two fluid vertices and pierce every z face
+    let (side, turn, centre) = (0.37, 0.6, Vec3::new(0.5, 0.49, 0.5));
+    let mut s = Surface::unit_cube();
+    let rot = glam::DMat3::from_rotation_z(turn);
+    for p in &mut s.vertices {
+        let q = (*p - Vec3::splat(0.5)) * Vec3::new(side, side, 1.3);
+        *p = centre + rot * q;
+    }
+    let rot_t = rot.transpose();
+    // outside: fluid pokes nowhere; inside: fluid pokes through edges between solid vertices
+    for (lv, fluid) in [4u8, 5].into_iter().flat_map(|l| [(l, false), (l, true)]) {
+        let h = 1.0 / (1u32 << lv) as f64;
+        let opts = CutOptions {
+            fluid: if fluid {
+                FluidSide::Inside
+            } else {
+                FluidSide::Outside
+            },
+            ..Default::default()
+        };
+        let (out, v) = mesh(&s, lv, &opts);
+        // exact: the prism's part inside the box is side^2 (the prism spans z); the box rest
+        let want = if fluid {
+            side * side
+        } else {
+            1.0 - side * side
+        };
+        eprintln!("prism level {lv} inside {fluid}: fluid {v:.12} exact {want:.12}");
+        assert!((v - want).abs() < 1e-9, "level {lv}: fluid {v} vs {want}");
+        // every wall vertex on a side of the prism (box signed distance, common practice)
+        let m = &out.mesh;
+        let mut worst: f64 = 0.0;
+        for p in &m.patches {
+            if !matches!(p.kind, PatchKind::Wall { .. }) {
+                continue;
+            }
+            for f in p.start..p.start + p.count {
+                for &q in m.face(f as usize) {
+                    let l = rot_t * (m.points[q as usize] - centre);
+                    let d = (l.x.abs().max(l.y.abs()) - 0.5 * side).abs();
+                    worst = worst.max(d);
+                }
+            }
+        }
+        eprintln!(
+            "prism level {lv} inside {fluid}: worst wall vertex {:.3e} h",
+            worst / h
+        );
+        // the cut runs in a grid frame shifted by under 1e-6 h (see `grid_shift`)
         assert!(
-            worst <= 0.5 * h,
-            "level {lv}: a wall sample lies {:.4} h from the cube",
+            worst <= 2e-6 * h,
+            "level {lv}: a wall vertex {:.3e} h off",
             worst / h
         );
     }
@@ -345,7 +416,15 @@ fn domain_box_clips_a_body_on_the_floor() {
 #[test]
 fn output_is_identical_at_one_and_two_threads() {
     let t = torus(Vec3::new(0.5, 0.49, 0.51), 0.28, 0.1, 32, 16);
-    let index = SurfaceIndex::new(t);
+    // the rotated cube exercises pierce points, poke edges, edge splits and feature vertices
+    let c = rotated_cube(Vec3::new(0.5, 0.49, 0.51), 0.45, 0.4, 0.7);
+    for s in [t, c] {
+        same_at_one_and_two_threads(s);
+    }
+}
+
+fn same_at_one_and_two_threads(s: Surface) {
+    let index = SurfaceIndex::new(s);
     let tree = refined_tree(unit_domain(), &index, 5);
     let run = |n| {
         rayon::ThreadPoolBuilder::new()
@@ -368,4 +447,131 @@ fn output_is_identical_at_one_and_two_threads() {
     assert_eq!(a.mesh.neighbour, b.mesh.neighbour);
     assert_eq!(a.mesh.patches, b.mesh.patches);
     assert_eq!(a.report, b.report);
+}
+
+/// Meshes `s` (refined to `level`, fluid inside) and requires the volume-mesh validator and the
+/// independent check to pass; returns the fluid volume.
+fn valid_inside(s: &Surface, level: u8) -> f64 {
+    let opts = CutOptions {
+        fluid: FluidSide::Inside,
+        ..Default::default()
+    };
+    let (out, v) = mesh(s, level, &opts);
+    let r = out.mesh.validate();
+    assert!(
+        r.is_valid(),
+        "level {level}: {:?} (sharp-edge fallbacks {})",
+        r.problems.first(),
+        out.report.sharp_fallbacks
+    );
+    v
+}
+
+#[test]
+fn prism_resting_on_a_box_top_in_a_grid_plane_stays_valid() {
+    // regression: a turned prism standing on a cuboid whose top lies in a grid plane (z = 0.5
+    // at level 3); before the fix a wall fan of two cells on either side of a face had a
+    // triangle in the face plane made of that face's cut points, so both cells emitted it
+    // (DuplicateFace)
+    let (lo, hi) = (
+        Vec3::new(0.2592564761784898, 0.2762762485640857, 0.2),
+        Vec3::new(0.7134066235718481, 0.7044208242350701, 0.5),
+    );
+    let (side, turn, ztop) = (0.16506818833718784, 1.4865251623643325, 0.7694995300195527);
+    let centre = Vec3::new(0.5289836014398379, 0.5365373806805865, 0.5 * (0.5 + ztop));
+    let mut s = Surface::unit_cube();
+    for p in &mut s.vertices {
+        *p = lo + *p * (hi - lo);
+    }
+    let mut prism = Surface::unit_cube();
+    let rot = glam::DMat3::from_rotation_z(turn);
+    for p in &mut prism.vertices {
+        let q = (*p - Vec3::splat(0.5)) * Vec3::new(side, side, ztop - 0.5);
+        *p = centre + rot * q;
+    }
+    s.append(prism);
+    // exact: the two solids touch along the prism's base only, so the union's volume is the
+    // sum of the cuboid's and the prism's
+    let want = (hi - lo).element_product() + side * side * (ztop - 0.5);
+    for lv in [3u8, 4] {
+        let v = valid_inside(&s, lv);
+        eprintln!("prism on box level {lv}: fluid {v:.9} exact {want:.9}");
+        assert!((v - want).abs() < 1e-3 * want, "level {lv}: {v} vs {want}");
+    }
+}
+
+#[test]
+fn two_overlapping_rotated_cubes_stay_valid() {
+    // regression: the concave edges where two rotated cubes intersect, fluid inside; before the
+    // fix a wall fan diagonal lay in a face plane through another cut point (VertexOnEdge)
+    let c1 = Vec3::new(0.41812720983398116, 0.4554723096132617, 0.5241016390964719);
+    let ang = [
+        0.03517768541210764,
+        0.2552845462313291,
+        0.5346793961609182,
+        2.995306921241081,
+    ];
+    let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
+    s.append(rotated_cube(
+        c1 + Vec3::new(0.2, 0.05, 0.02),
+        0.22,
+        ang[2],
+        ang[3],
+    ));
+    let (v1, v2) = (0.25f64.powi(3), 0.22f64.powi(3));
+    for lv in [4u8, 5] {
+        let v = valid_inside(&s, lv);
+        eprintln!(
+            "two cubes level {lv}: fluid {v:.9}, bounds [{:.9}, {:.9}]",
+            v1,
+            v1 + v2
+        );
+        // exact: a union's volume lies between the larger part's and the sum of both
+        assert!(v > v1.max(v2) && v < v1 + v2, "level {lv}: {v}");
+    }
+    // regression: two pieces of one leaf meeting along the concave edge; one piece's feature
+    // vertex lay on the other piece's wall edge along that edge (VertexOnEdge at level 5)
+    let c1 = Vec3::new(0.42889475159411794, 0.47002568278203216, 0.5152975598267014);
+    let ang = [
+        1.2688951476316088,
+        1.439943900681992,
+        0.680349332497181,
+        2.610248150182177,
+    ];
+    let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
+    s.append(rotated_cube(
+        c1 + Vec3::new(0.2, 0.05, 0.02),
+        0.22,
+        ang[2],
+        ang[3],
+    ));
+    let v = valid_inside(&s, 5);
+    eprintln!("two cubes (second pair) level 5: fluid {v:.9}");
+    assert!(v > v1.max(v2) && v < v1 + v2, "{v}");
+}
+
+#[test]
+fn drone_demo_at_base_size_019_validates() {
+    // regression: the project's own drone demo at base_size 0.19 had a fluid hanging vertex on
+    // a straight face side between two solid ones (the surface through it), a zero-area face
+    // polygon (VertexOnEdge); the pipeline validates every mesh and fails on any defect
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-geometry");
+    let file = dir.join("drone.toml");
+    let text = std::fs::read_to_string(&file).unwrap();
+    let text: String = text
+        .lines()
+        .map(|l| {
+            if l.starts_with("base_size = ") {
+                "base_size = 0.19".to_string()
+            } else {
+                l.to_string()
+            }
+        })
+        .collect::<Vec<_>>()
+        .join("\n");
+    let spec = octocut::CaseSpec::from_toml_str(&text, &file).unwrap();
+    let m = octocut::pipeline::Mesher::load(&spec).unwrap();
+    let out = m.mesh(&spec, &octocut::stages::Hooks::default());
+    let out = out.unwrap_or_else(|e| panic!("drone at base 0.19: {e}"));
+    assert!(out.report.valid);
 }

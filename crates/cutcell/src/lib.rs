@@ -157,6 +157,9 @@ pub struct CutReport {
     /// "Feature below cell size" warnings (at most [`MAX_WARNINGS`] listed).
     pub warnings: Vec<CellWarning>,
     pub warnings_total: usize,
+    /// Faces where a sharp edge's pierce point was dropped to keep the face's parts disjoint.
+    #[serde(default)]
+    pub sharp_fallbacks: usize,
 }
 
 /// Most warnings listed in a report; the total is always counted.
@@ -290,7 +293,7 @@ pub fn cut_cells_with_regions(
             mix[face.n as usize] |= face_mix[f];
         }
     }
-    let status: Vec<u8> = mix
+    let mut status: Vec<u8> = mix
         .iter()
         .map(|&m| {
             if m == 3 {
@@ -302,9 +305,6 @@ pub fn cut_cells_with_regions(
             }
         })
         .collect();
-    report.fluid_leaves = status.iter().filter(|&&s| s == FLUID).count();
-    report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
-    report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
 
     // a mixed face away from every touched leaf (rare: classes decided at a grazing surface)
     let extra: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
@@ -342,6 +342,22 @@ pub fn cut_cells_with_regions(
         pierce_cuts: opts.pierce_points,
     }
     .run(pierce_base);
+    // a uniform leaf beside a face that a poke edge cuts (see `clip`) is cut
+    if !clip.poke_plane.is_empty() {
+        for (f, face) in topo.faces.iter().enumerate() {
+            if !clip.chords_of(f as u32).is_empty() {
+                for l in [face.e, face.n] {
+                    if (l as usize) < leaves.len() && status[l as usize] != CUT {
+                        status[l as usize] = CUT;
+                    }
+                }
+            }
+        }
+    }
+    report.sharp_fallbacks = clip.fallbacks;
+    report.fluid_leaves = status.iter().filter(|&&s| s == FLUID).count();
+    report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
+    report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
     tmark("clip");
     let pts = Points {
         domain,

@@ -5,14 +5,17 @@
 //! loops (each crossing on the leaf's boundary starts exactly one chord and ends exactly one, as
 //! the two faces sharing its edge traverse it in opposite directions). Face polygons sharing a
 //! point, and chords with their polygon and loop, are joined by union-find; each component is
-//! one cell. A loop whose crossing normals differ by more than the feature angle is fanned to
-//! the dual-contouring feature vertex (Ju et al. 2002), else a planar single-tag loop is kept
-//! as one face and any other is fanned to its centroid. Volumes follow from the divergence
+//! one cell. Two pierce points of a loop on the same sharp edge (same facet normals, the segment
+//! between them on the surface) are joined through the cell, splitting the loop into parts on
+//! either side of the edge. A part whose crossing and pierce-point normals differ by more than
+//! the feature angle is fanned to the dual-contouring feature vertex (Ju et al. 2002), else a
+//! planar single-tag part is kept as one face and any other is fanned to the surface point
+//! nearest its centroid. Volumes follow from the divergence
 //! theorem over the closed piece boundary. Invariant: every piece is a closed oriented surface.
 
 use crate::clip::Clip;
 use crate::crossing::Crossing;
-use crate::feature::qef_vertex;
+use crate::feature::{qef_unclamped, qef_vertex};
 use crate::topology::Topology;
 use crate::util::UnionFind;
 use octocut_octree::{Domain, Octree};
@@ -80,6 +83,11 @@ pub(crate) struct Scratch {
     piece_of: Vec<u32>,
     pos: Vec<Vec3>,
     planes: Vec<(Vec3, Vec3)>,
+    edge_pts: Vec<(usize, [Vec3; 2])>,
+    joins: Vec<(usize, usize)>,
+    sub: Vec<u32>,
+    alive: Vec<bool>,
+    ends: Vec<u32>,
 }
 
 /// A reusable union-find (empty by default).
@@ -97,6 +105,16 @@ pub(crate) struct CellCtx<'a> {
     pub clip: &'a Clip,
     pub pts: &'a Points<'a>,
     pub cos_feature: f64,
+}
+
+/// Do all points `p` lie on one face plane of `cell` (edge `h`)? Points on the leaf's boundary
+/// sit on it to round-off, and every point off a face plane is at least `T_EPS h` from it.
+fn on_one_face(cell: &Aabb, h: f64, p: &[Vec3]) -> bool {
+    let tol = 1e-6 * h;
+    (0..3).any(|a| {
+        p.iter().all(|q| (q[a] - cell.min[a]).abs() <= tol)
+            || p.iter().all(|q| (q[a] - cell.max[a]).abs() <= tol)
+    })
 }
 
 #[inline]
@@ -244,6 +262,7 @@ impl CellCtx<'_> {
             out.piece_volume[(first + pc) as usize] += if is_e { v } else { -v };
         }
         out.n_pieces.push(n_pieces);
+        let (np0, nw0, wp0) = (out.new_pts.len(), out.wall_len.len(), out.wall_pts.len());
         for l in 0..s.loop_elem.len() {
             let root = s.uf.0.find(s.loop_elem[l]) as usize;
             let pc = first + s.piece_of[root];
@@ -251,9 +270,110 @@ impl CellCtx<'_> {
             let v = self.emit_wall(s, lp, pc, &cell, h, r, out);
             out.piece_volume[pc as usize] += v;
         }
+        if n_pieces > 1 && out.new_pts.len() > np0 {
+            self.separate_apexes(np0, nw0, wp0, &cell, h, r, out);
+        }
+    }
+
+    /// Pieces of one leaf may meet along a sharp edge (a concave edge between two bodies):
+    /// an apex of one piece on that edge can lie on a wall edge of another piece (a
+    /// T-junction). Such an apex moves `1e-3 h` towards its own wall's vertex mean, the
+    /// piece volume following.
+    #[allow(clippy::too_many_arguments)]
+    fn separate_apexes(
+        &self,
+        np0: usize,
+        nw0: usize,
+        wp0: usize,
+        cell: &Aabb,
+        h: f64,
+        r: Vec3,
+        out: &mut CutChunk,
+    ) {
+        let pos = |out: &CutChunk, id: u32| {
+            if id & LOCAL != 0 {
+                out.new_pts[(id & !LOCAL) as usize]
+            } else {
+                self.pts.get(id)
+            }
+        };
+        let inner = cell.inflated(-crate::crossing::T_EPS * h);
+        for k in np0..out.new_pts.len() {
+            let a = LOCAL | k as u32;
+            let pa = out.new_pts[k];
+            // the apex's piece, its wall's vertex mean, and whether another piece's wall edge
+            // runs through it
+            let (mut piece, mut mean, mut n, mut hit) = (u32::MAX, Vec3::ZERO, 0.0, false);
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let f = &out.wall_pts[off..off + out.wall_len[w] as usize];
+                off += f.len();
+                if f.contains(&a) {
+                    piece = out.wall_piece[w];
+                    for &q in f.iter().filter(|&&q| q != a) {
+                        mean += pos(out, q);
+                        n += 1.0;
+                    }
+                }
+            }
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let f = &out.wall_pts[off..off + out.wall_len[w] as usize];
+                off += f.len();
+                if out.wall_piece[w] == piece || f.contains(&a) {
+                    continue;
+                }
+                for i in 0..f.len() {
+                    let (p, q) = (pos(out, f[i]), pos(out, f[(i + 1) % f.len()]));
+                    let d = q - p;
+                    let t = (pa - p).dot(d) / d.length_squared().max(f64::MIN_POSITIVE);
+                    if t > 0.0 && t < 1.0 && (p + t * d - pa).length() <= 1e-7 * h {
+                        hit = true;
+                    }
+                }
+            }
+            if !hit || n == 0.0 {
+                continue;
+            }
+            let to = (mean / n - pa).normalize_or_zero();
+            let moved = (pa + 1e-3 * h * to).clamp(inner.min, inner.max);
+            // volume change of the apex's fan triangles
+            let mut off = wp0;
+            for w in nw0..out.wall_len.len() {
+                let len = out.wall_len[w] as usize;
+                let f = &out.wall_pts[off..off + len];
+                off += len;
+                if !f.contains(&a) {
+                    continue;
+                }
+                let at = |x: Vec3| {
+                    let v: Vec<Vec3> = f
+                        .iter()
+                        .map(|&q| if q == a { x } else { pos(out, q) })
+                        .collect();
+                    fan_volume(&v, r)
+                };
+                let dv = at(moved) - at(pa);
+                out.piece_volume[out.wall_piece[w] as usize] += dv;
+            }
+            out.new_pts[k] = moved;
+        }
+    }
+
+    /// The two facet normals meeting at point `id` if it is a pierce point.
+    fn pair_of(&self, id: u32) -> Option<[Vec3; 2]> {
+        if id < self.pts.pierce_base {
+            return None;
+        }
+        let pr = *self.clip.pair.get((id - self.pts.pierce_base) as usize)?;
+        (pr[1] != Vec3::ZERO).then_some(pr)
     }
 
     /// Triangulates one wall loop; returns its volume contribution.
+    ///
+    /// Two pierce points of the loop on the same sharp edge (same two facet normals, the
+    /// segment between them on the surface) are joined through the cell, splitting the loop
+    /// into parts that each lie on one side of the edge; each part is then triangulated alone.
     #[allow(clippy::too_many_arguments)]
     fn emit_wall(
         &self,
@@ -269,21 +389,145 @@ impl CellCtx<'_> {
         if m < 3 {
             return 0.0;
         }
+        // pierce points of the loop and the edge segments joining pairs of them
+        s.edge_pts.clear();
+        for k in 0..m {
+            if let Some(pr) = self.pair_of(s.loop_pts[lp.start + k]) {
+                s.edge_pts.push((k, pr));
+            }
+        }
+        s.joins.clear();
+        if s.edge_pts.len() >= 2 {
+            let same = |a: [Vec3; 2], b: [Vec3; 2]| {
+                let c = 1.0 - 1e-9;
+                (a[0].dot(b[0]) > c && a[1].dot(b[1]) > c)
+                    || (a[0].dot(b[1]) > c && a[1].dot(b[0]) > c)
+            };
+            let ne = s.edge_pts.len();
+            let mut used = [false; 64];
+            for i in 0..ne.min(64) {
+                if used[i] {
+                    continue;
+                }
+                for j in i + 1..ne.min(64) {
+                    let (ki, kj) = (s.edge_pts[i].0, s.edge_pts[j].0);
+                    if used[j] || kj - ki == 1 || (ki == 0 && kj == m - 1) {
+                        continue;
+                    }
+                    if !same(s.edge_pts[i].1, s.edge_pts[j].1) {
+                        continue;
+                    }
+                    let (a, b) = (
+                        self.pts.get(s.loop_pts[lp.start + ki]),
+                        self.pts.get(s.loop_pts[lp.start + kj]),
+                    );
+                    let on = |q: Vec3| {
+                        self.index
+                            .closest_point(q)
+                            .is_some_and(|c| c.distance <= 1e-6 * h)
+                    };
+                    if on(0.5 * (a + b)) && on(0.25 * (3.0 * a + b)) && on(0.25 * (a + 3.0 * b)) {
+                        used[i] = true;
+                        used[j] = true;
+                        s.joins.push((ki, kj));
+                        break;
+                    }
+                }
+            }
+            // the joins must not cross (nested or disjoint in loop order)
+            let crossing = s.joins.iter().any(|&(a, b)| {
+                s.joins
+                    .iter()
+                    .any(|&(c, d)| (a < c && c < b && b < d) || (c < a && a < d && d < b))
+            });
+            if crossing {
+                s.joins.clear();
+            }
+        }
+        if s.joins.is_empty() {
+            let ids = std::mem::take(&mut s.sub);
+            let mut ids = ids;
+            ids.clear();
+            ids.extend_from_slice(&s.loop_pts[lp]);
+            let v = self.emit_part(s, &ids, &[], piece, cell, h, r, out);
+            s.sub = ids;
+            return v;
+        }
+        // split: the parts are the loop's arcs between joins, innermost first
+        s.joins.sort_unstable_by_key(|&(a, b)| (b - a, a));
+        let mut alive = std::mem::take(&mut s.alive);
+        alive.clear();
+        alive.resize(m, true);
+        let mut ids = std::mem::take(&mut s.sub);
+        let mut ends = std::mem::take(&mut s.ends);
+        ends.clear();
+        let mut vol = 0.0;
+        for j in 0..s.joins.len() {
+            let (a, b) = s.joins[j];
+            ids.clear();
+            let arc = &s.loop_pts[lp.start + a..=lp.start + b];
+            ids.extend(arc.iter().zip(&alive[a..=b]).filter(|x| *x.1).map(|x| *x.0));
+            for flag in alive.iter_mut().take(b).skip(a + 1) {
+                *flag = false;
+            }
+            ends.push(s.loop_pts[lp.start + a]);
+            ends.push(s.loop_pts[lp.start + b]);
+            vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
+        }
+        ids.clear();
+        let all = &s.loop_pts[lp.clone()];
+        ids.extend(all.iter().zip(&alive).filter(|x| *x.1).map(|x| *x.0));
+        vol += self.emit_part(s, &ids, &ends, piece, cell, h, r, out);
+        s.sub = ids;
+        s.alive = alive;
+        s.ends = ends;
+        vol
+    }
+
+    /// Triangulates one closed part of a wall loop (`ids`, in order); pierce points in `joined`
+    /// end an edge segment of the part and bring no facet planes. Returns its volume term.
+    #[allow(clippy::too_many_arguments)]
+    fn emit_part(
+        &self,
+        s: &mut Scratch,
+        ids: &[u32],
+        joined: &[u32],
+        piece: u32,
+        cell: &Aabb,
+        h: f64,
+        r: Vec3,
+        out: &mut CutChunk,
+    ) -> f64 {
+        let m = ids.len();
+        if m < 3 {
+            return 0.0;
+        }
         s.pos.clear();
         s.planes.clear();
         let mut tag = u32::MAX;
         let mut mixed = false;
-        for k in lp.clone() {
-            let id = s.loop_pts[k];
+        for &id in ids {
             let p = self.pts.get(id);
             s.pos.push(p);
-            if let Some(c) = self.pts.crossing(id) {
-                s.planes.push((c.point, c.normal));
-                let t = self.tag_of_triangle(c.triangle);
+            let plane = match self.pts.crossing(id) {
+                Some(c) => Some((c.normal, c.triangle)),
+                None if id >= self.pts.pierce_base => {
+                    self.clip.poke_plane(id - self.pts.pierce_base)
+                }
+                None => None,
+            };
+            if let Some((normal, triangle)) = plane {
+                s.planes.push((p, normal));
+                let t = self.tag_of_triangle(triangle);
                 if tag == u32::MAX {
                     tag = t;
                 } else if t != tag {
                     mixed = true;
+                }
+            } else if let Some(pr) = self.pair_of(id) {
+                if !joined.contains(&id) {
+                    s.planes.push((p, pr[0]));
+                    s.planes.push((p, pr[1]));
                 }
             }
         }
@@ -311,8 +555,12 @@ impl CellCtx<'_> {
                     .iter()
                     .all(|p| nn.dot(*p - s.pos[0]).abs() <= 1e-9 * h)
         };
-        if m == 3 && !feature || planar && !mixed {
-            out.wall_pts.extend_from_slice(&s.loop_pts[lp.clone()]);
+        // a loop lying in one face plane of the leaf is not emitted as it stands: the cell on
+        // the other side sees the same points and would emit the same face (the apex, strictly
+        // inside the leaf, lifts the fan off the plane)
+        let flat = on_one_face(cell, h, &s.pos);
+        if (m == 3 && !feature || planar && !mixed) && !flat {
+            out.wall_pts.extend_from_slice(ids);
             out.wall_len.push(m as u32);
             out.wall_piece.push(piece);
             out.wall_tag.push(tag);
@@ -323,23 +571,61 @@ impl CellCtx<'_> {
         // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
         // edge of the leaf without being one of that face's vertices (a T-junction)
         let inner = cell.inflated(-crate::crossing::T_EPS * h);
-        let apex = if feature {
-            qef_vertex(&s.planes, mass, &inner)
+        let (apex, wanted) = if feature {
+            (
+                qef_vertex(&s.planes, mass, &inner),
+                qef_unclamped(&s.planes, mass),
+            )
         } else {
-            match self.index.closest_point(mass) {
-                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
-                _ => mass.clamp(inner.min, inner.max),
-            }
+            let p = match self.index.closest_point(mass) {
+                Some(c) if c.distance < 0.5 * h => c.point,
+                _ => mass,
+            };
+            (p.clamp(inner.min, inner.max), p)
         };
+        // an apex that the cell clamp pushed next to a loop point (a feature vertex outside
+        // the cell, near a pierce point) would leave sliver triangles: fan from that point
+        let (kn, dn) = s
+            .pos
+            .iter()
+            .map(|p| (*p - apex).length())
+            .enumerate()
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .unwrap_or((0, f64::INFINITY));
+        if apex != wanted && dn < 1e-3 * h {
+            let p0 = s.pos[kn];
+            // no sliver, and no diagonal from the fan point lying in a face plane of the leaf:
+            // there it could pass through another loop point (a T-junction) or bound a
+            // triangle that the neighbour's wall repeats
+            let fan_ok = !flat
+                && (1..m - 1).all(|i| {
+                    let (a, b) = (s.pos[(kn + i) % m], s.pos[(kn + i + 1) % m]);
+                    (a - p0).cross(b - p0).length() > 1e-6 * h * h
+                })
+                && (2..m - 1).all(|i| !on_one_face(cell, h, &[p0, s.pos[(kn + i) % m]]));
+            if fan_ok {
+                for i in 1..m - 1 {
+                    let (ia, ib) = ((kn + i) % m, (kn + i + 1) % m);
+                    let (a, b) = (s.pos[ia], s.pos[ib]);
+                    out.wall_pts.extend_from_slice(&[ids[kn], ids[ia], ids[ib]]);
+                    out.wall_len.push(3);
+                    out.wall_piece.push(piece);
+                    out.wall_tag.push(if mixed {
+                        self.nearest_tag((a + b + p0) / 3.0)
+                    } else {
+                        tag
+                    });
+                    vol += fan_volume(&[p0, a, b], r);
+                }
+                return vol;
+            }
+        }
         let apex_id = LOCAL | out.new_pts.len() as u32;
         out.new_pts.push(apex);
         for i in 0..m {
             let (a, b) = (s.pos[i], s.pos[(i + 1) % m]);
-            out.wall_pts.extend_from_slice(&[
-                s.loop_pts[lp.start + i],
-                s.loop_pts[lp.start + (i + 1) % m],
-                apex_id,
-            ]);
+            out.wall_pts
+                .extend_from_slice(&[ids[i], ids[(i + 1) % m], apex_id]);
             out.wall_len.push(3);
             out.wall_piece.push(piece);
             out.wall_tag.push(if mixed {
