@@ -4,8 +4,8 @@
 //! Pipeline of [`cut_cells`]: conforming face topology of the octree ([`topology`]), vertex
 //! classes by winding number ([`classify`]), edge crossings ([`crossing`]), face clipping
 //! ([`clip`]), closing cut leaves into pieces with wall faces ([`pieces`], feature vertices by
-//! [`feature`]), fluid-region selection, small-cell merging ([`merge`]) and assembly
-//! ([`assemble`]).
+//! [`feature`], loop triangulation by [`wallsplit`]), fluid-region selection, small-cell
+//! merging ([`merge`]) and assembly ([`assemble`]).
 //!
 //! Conventions: a vertex is fluid iff it is not inside (winding number below 1/2) for
 //! [`FluidSide::Outside`], the reverse for [`FluidSide::Inside`]; a crossing never sits on a
@@ -37,6 +37,7 @@ pub mod pieces;
 pub mod test_support;
 pub mod topology;
 mod util;
+pub mod wallsplit;
 
 use assemble::{assemble, AssembleInput, RawFaces, BOUNDARY};
 use clip::ClipCtx;

@@ -7,7 +7,9 @@
 //! point, and chords with their polygon and loop, are joined by union-find; each component is
 //! one cell. A loop whose crossing normals differ by more than the feature angle is fanned to
 //! the dual-contouring feature vertex (Ju et al. 2002), else a planar single-tag loop is kept
-//! as one face and any other is fanned to its centroid. Volumes follow from the divergence
+//! as one face and any other is split into triangles from one of its vertices
+//! ([`crate::wallsplit`]) or, when no vertex sees the whole loop, fanned to the surface point
+//! nearest its centroid. Volumes follow from the divergence
 //! theorem over the closed piece boundary. Invariant: every piece is a closed oriented surface.
 
 use crate::clip::Clip;
@@ -80,6 +82,7 @@ pub(crate) struct Scratch {
     piece_of: Vec<u32>,
     pos: Vec<Vec3>,
     planes: Vec<(Vec3, Vec3)>,
+    masks: Vec<u8>,
 }
 
 /// A reusable union-find (empty by default).
@@ -331,6 +334,26 @@ impl CellCtx<'_> {
                 _ => mass.clamp(inner.min, inner.max),
             }
         };
+        // a smooth loop splits into triangles of its own vertices when a vertex sees all others,
+        // choosing the split nearest in volume to the fan to the apex
+        if !feature {
+            if let Some(root) = crate::wallsplit::fan_root(&s.pos, cell, h, apex, &mut s.masks) {
+                for i in 1..m - 1 {
+                    let t = [root, (root + i) % m, (root + i + 1) % m];
+                    let q = t.map(|j| s.pos[j]);
+                    out.wall_pts.extend(t.map(|j| s.loop_pts[lp.start + j]));
+                    out.wall_len.push(3);
+                    out.wall_piece.push(piece);
+                    out.wall_tag.push(if mixed {
+                        self.nearest_tag((q[0] + q[1] + q[2]) / 3.0)
+                    } else {
+                        tag
+                    });
+                    vol += fan_volume(&q, r);
+                }
+                return vol;
+            }
+        }
         let apex_id = LOCAL | out.new_pts.len() as u32;
         out.new_pts.push(apex);
         for i in 0..m {
