@@ -84,6 +84,7 @@ impl Topology {
     pub fn build(tree: &Octree) -> Topology {
         let leaves = tree.leaves();
         let (grid, corners, lines) = Vertices::build(leaves);
+        crate::tmark("topo.verts");
         // faces, chunk-parallel, concatenated in leaf order
         let ext = tree.domain.grid_extent();
         const CHUNK: usize = 512;
@@ -145,6 +146,7 @@ impl Topology {
             }
             face_pts.extend(pts);
         }
+        crate::tmark("topo.faces");
         // leaf -> faces
         let mut leaf_off = vec![0u32; leaves.len() + 1];
         for f in &faces {
@@ -208,7 +210,9 @@ impl Vertices {
             .with_min_len(4096)
             .map(|s| grid_key(corner(s / 8, s % 8)) << 32 | s as u128)
             .collect();
+        crate::tmark("topo.slots");
         slots.par_sort_unstable();
+        crate::tmark("topo.sort");
         // group (distinct point) of every slot, groups in key order
         let mut slot_group = vec![0u32; n];
         let mut ng = 0u32;
@@ -236,6 +240,7 @@ impl Vertices {
             corners.push(c);
         }
         drop(slot_group);
+        crate::tmark("topo.ids");
         // groups are in (z, y, x) order: that is the x-axis order
         let order0: Vec<u32> = group_id;
         let by_axis = |a: usize| -> Vec<u32> {
