@@ -321,23 +321,9 @@ impl CellCtx<'_> {
             out.wall_tag.push(tag);
             return fan_volume(&s.pos, r);
         }
-        // a smooth loop fans to the surface point nearest its centroid (on the surface, so the
-        // wall interpolates it); a sharp one to the feature vertex
-        // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
-        // edge of the leaf without being one of that face's vertices (a T-junction)
-        let inner = cell.inflated(-crate::crossing::T_EPS * h);
-        let apex = if feature {
-            qef_vertex(&s.planes, mass, &inner)
-        } else {
-            match self.index.closest_point(mass) {
-                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
-                _ => mass.clamp(inner.min, inner.max),
-            }
-        };
-        // a smooth loop splits into triangles of its own vertices when a vertex sees all others,
-        // choosing the split nearest in volume to the fan to the apex
+        // a smooth loop splits into triangles of its own vertices when a vertex sees all others
         if !feature {
-            if let Some(root) = crate::wallsplit::fan_root(&s.pos, cell, h, apex, &mut s.masks) {
+            if let Some(root) = crate::wallsplit::fan_root(&s.pos, cell, h, None, &mut s.masks) {
                 for i in 1..m - 1 {
                     let t = [root, (root + i) % m, (root + i + 1) % m];
                     let q = t.map(|j| s.pos[j]);
@@ -354,6 +340,19 @@ impl CellCtx<'_> {
                 return vol;
             }
         }
+        // otherwise a smooth loop fans to the surface point nearest its centroid (on the surface,
+        // so the wall interpolates it); a sharp one to the feature vertex
+        // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
+        // edge of the leaf without being one of that face's vertices (a T-junction)
+        let inner = cell.inflated(-crate::crossing::T_EPS * h);
+        let apex = if feature {
+            qef_vertex(&s.planes, mass, &inner)
+        } else {
+            match self.index.closest_point(mass) {
+                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
+                _ => mass.clamp(inner.min, inner.max),
+            }
+        };
         let apex_id = LOCAL | out.new_pts.len() as u32;
         out.new_pts.push(apex);
         for i in 0..m {

@@ -9,10 +9,9 @@
 //! (Shewchuk 1997, [`octocut_surface::predicates::orient2d`]). A fan triangle with its three
 //! vertices on one side plane of the leaf would lie in a face of the leaf, so such a root is
 //! rejected; so is one giving a triangle thinner than `1e-9 h^2`, whose orientation the
-//! frame shift back could flip. Among valid roots the one whose fan encloses the least volume
-//! with the fan to a given apex (the surface point nearest the loop) is taken, so the wall
-//! keeps the apex fan's volume as far as the loop's own vertices allow (ties: the better worst
-//! triangle shape, then the first). Invariant: the fan covers the loop's projection exactly once, with
+//! frame shift back could flip. Among valid roots the one with the best worst triangle shape
+//! is taken (ties: the first); with an apex given (a surface point near the loop), the one whose
+//! fan encloses the least volume with the fan to the apex. Invariant: the fan covers the loop's projection exactly once, with
 //! the loop's orientation.
 
 use octocut_surface::predicates::orient2d;
@@ -48,14 +47,15 @@ fn shape(a: Vec3, b: Vec3, c: Vec3) -> f64 {
 }
 
 /// The loop vertex from which the fan `(r, r + i, r + i + 1)`, `i = 1..m - 1` (indices mod `m`),
-/// triangulates the loop `pos` (in order, inside leaf box `cell` of edge `h`) closest in volume
-/// to the fan to `apex`, or `None` when no vertex gives a valid fan. `masks` is a scratch buffer.
+/// triangulates the loop `pos` (in order, inside leaf box `cell` of edge `h`), best shaped or
+/// closest in volume to the fan to `apex`, or `None` when no vertex gives a valid fan. `masks`
+/// is a scratch buffer.
 ///
 pub(crate) fn fan_root(
     pos: &[Vec3],
     cell: &Aabb,
     h: f64,
-    apex: Vec3,
+    apex: Option<Vec3>,
     masks: &mut Vec<u8>,
 ) -> Option<usize> {
     let m = pos.len();
@@ -104,7 +104,9 @@ pub(crate) fn fan_root(
             let dot = pb[0] * pc[0] + pb[1] * pc[1];
             sweep += (cross * s as f64).atan2(dot);
             worst = worst.min(shape(a, b, c));
-            vol += (a - apex).dot((b - apex).cross(c - apex));
+            if let Some(x) = apex {
+                vol += (a - x).dot((b - x).cross(c - x));
+            }
         }
         // a loop winding twice about `r` would pass every triangle test
         if sweep >= 2.0 * std::f64::consts::PI - 1e-6 {
@@ -148,7 +150,7 @@ mod tests {
             Vec3::new(1.0, 1.0, 0.4),
             Vec3::new(0.0, 1.0, 0.6),
         ];
-        let r = fan_root(&p, &cube(), 1.0, Vec3::splat(0.5), &mut vec![]).unwrap();
+        let r = fan_root(&p, &cube(), 1.0, None, &mut vec![]).unwrap();
         // exact: the vector area of a closed polygon does not depend on the triangulation
         // (Newell's formula equals the sum over any fan)
         assert!((fan_area(&p, r) - newell(&p)).length() < 1e-14);
@@ -166,7 +168,7 @@ mod tests {
             Vec3::new(0.0, 0.7, 0.8),
             Vec3::new(0.6, 0.3, 0.9),
         ];
-        let r = fan_root(&p, &cube(), 1.0, Vec3::splat(0.5), &mut vec![]).unwrap();
+        let r = fan_root(&p, &cube(), 1.0, None, &mut vec![]).unwrap();
         let m = p.len();
         for i in 1..m - 1 {
             let t = [r, (r + i) % m, (r + i + 1) % m];
@@ -196,10 +198,7 @@ mod tests {
         .map(|(i, &(x, y))| Vec3::new(x + 0.05, y + 0.05, 0.5 + 0.01 * (i % 2) as f64))
         .collect();
         // common practice: a comb with three teeth has no kernel point at any vertex
-        assert_eq!(
-            fan_root(&p, &cube(), 1.0, Vec3::splat(0.5), &mut vec![]),
-            None
-        );
+        assert_eq!(fan_root(&p, &cube(), 1.0, None, &mut vec![]), None);
     }
 
     #[test]
@@ -211,7 +210,7 @@ mod tests {
             Vec3::new(0.0, 1.0, 0.6),
         ];
         p.reverse();
-        let r = fan_root(&p, &cube(), 1.0, Vec3::splat(0.5), &mut vec![]).unwrap();
+        let r = fan_root(&p, &cube(), 1.0, None, &mut vec![]).unwrap();
         assert!((fan_area(&p, r) - newell(&p)).length() < 1e-14);
         // exact: its projection on z = 0 is the unit square, clockwise
         assert!((fan_area(&p, r).z + 1.0).abs() < 1e-14);
