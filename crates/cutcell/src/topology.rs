@@ -99,6 +99,12 @@ impl Topology {
                     let k = leaves[l];
                     let (a, e) = (k.anchor(), k.edge() as i64);
                     for d in 0..6u8 {
+                        // across a negative direction with the leaf's anchor odd in its own
+                        // size, the same-size box is a sibling (or, at level 0, a base cell):
+                        // never coarser, so the face is enumerated from the other side
+                        if d % 2 == 0 && (a[(d / 2) as usize] / e as u32) % 2 == 1 {
+                            continue;
+                        }
                         // the leaf holding the anchor cell of the same-size box across `d`
                         let mut b = [0u32; 3];
                         let mut inside = true;
