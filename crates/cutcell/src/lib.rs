@@ -485,6 +485,10 @@ pub fn cut_cells_with_regions(
     let n_raw = cell_leaf.len();
     // all point positions
     let new_pts: usize = chunks.iter().map(|c| c.new_pts.len()).sum();
+    if std::env::var_os("OCTOCUT_CUT_TIMING").is_some() {
+        let walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
+        eprintln!("wall faces {walls}, wall apex points {new_pts}");
+    }
     let mut points: Vec<Vec3> =
         Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
     points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
