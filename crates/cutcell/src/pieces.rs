@@ -8,8 +8,8 @@
 //! one cell. A loop whose crossing normals differ by more than the feature angle is fanned to
 //! the dual-contouring feature vertex (Ju et al. 2002), else a planar single-tag loop is kept
 //! as one face and any other is split into triangles from one of its vertices
-//! ([`crate::wallsplit`]) or, when no vertex sees the whole loop, fanned to the surface point
-//! nearest its centroid. Volumes follow from the divergence
+//! ([`crate::wallsplit`]) or, when no vertex sees the whole loop or that split strays from the
+//! surface, fanned to the surface point nearest its centroid. Volumes follow from the divergence
 //! theorem over the closed piece boundary. Invariant: every piece is a closed oriented surface.
 
 use crate::clip::Clip;
@@ -101,6 +101,12 @@ pub(crate) struct CellCtx<'a> {
     pub pts: &'a Points<'a>,
     pub cos_feature: f64,
 }
+
+/// Largest mean gap (in leaf edges) between a loop's own-vertex fan and its fan to the nearest
+/// surface point for the own-vertex fan to be used (our choice, tuned so that coarse cells on a
+/// curved body keep the more accurate apex fan; at 1/128 of a unit sphere's radius almost no
+/// loop needs it).
+const FAN_GAP: f64 = 3e-3;
 
 #[inline]
 fn fan_volume(p: &[Vec3], r: Vec3) -> f64 {
@@ -321,9 +327,25 @@ impl CellCtx<'_> {
             out.wall_tag.push(tag);
             return fan_volume(&s.pos, r);
         }
+        // otherwise a smooth loop fans to the surface point nearest its centroid (on the surface,
+        // so the wall interpolates it); a sharp one to the feature vertex
+        // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
+        // edge of the leaf without being one of that face's vertices (a T-junction)
+        let inner = cell.inflated(-crate::crossing::T_EPS * h);
+        let apex = if feature {
+            qef_vertex(&s.planes, mass, &inner)
+        } else {
+            match self.index.closest_point(mass) {
+                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
+                _ => mass.clamp(inner.min, inner.max),
+            }
+        };
         // a smooth loop splits into triangles of its own vertices when a vertex sees all others
+        // and that fan stays within `FAN_GAP` of the one to the surface point
         if !feature {
-            if let Some(root) = crate::wallsplit::fan_root(&s.pos, cell, h, None, &mut s.masks) {
+            let root = crate::wallsplit::fan_root(&s.pos, cell, h, Some(apex), &mut s.masks)
+                .filter(|&root| crate::wallsplit::fan_gap(&s.pos, root, apex) <= FAN_GAP * h);
+            if let Some(root) = root {
                 for i in 1..m - 1 {
                     let t = [root, (root + i) % m, (root + i + 1) % m];
                     let q = t.map(|j| s.pos[j]);
@@ -340,19 +362,6 @@ impl CellCtx<'_> {
                 return vol;
             }
         }
-        // otherwise a smooth loop fans to the surface point nearest its centroid (on the surface,
-        // so the wall interpolates it); a sharp one to the feature vertex
-        // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
-        // edge of the leaf without being one of that face's vertices (a T-junction)
-        let inner = cell.inflated(-crate::crossing::T_EPS * h);
-        let apex = if feature {
-            qef_vertex(&s.planes, mass, &inner)
-        } else {
-            match self.index.closest_point(mass) {
-                Some(c) if c.distance < 0.5 * h => c.point.clamp(inner.min, inner.max),
-                _ => mass.clamp(inner.min, inner.max),
-            }
-        };
         let apex_id = LOCAL | out.new_pts.len() as u32;
         out.new_pts.push(apex);
         for i in 0..m {

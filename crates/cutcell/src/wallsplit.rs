@@ -11,7 +11,8 @@
 //! rejected; so is one giving a triangle thinner than `1e-9 h^2`, whose orientation the
 //! frame shift back could flip. Among valid roots the one with the best worst triangle shape
 //! is taken (ties: the first); with an apex given (a surface point near the loop), the one whose
-//! fan encloses the least volume with the fan to the apex. Invariant: the fan covers the loop's projection exactly once, with
+//! fan encloses the least volume with the fan to the apex ([`fan_gap`] measures that volume per
+//! area, for the caller to fall back to the apex fan). Invariant: the fan covers the loop's projection exactly once, with
 //! the loop's orientation.
 
 use octocut_surface::predicates::orient2d;
@@ -120,6 +121,23 @@ pub(crate) fn fan_root(
     best.map(|(r, _, _)| r)
 }
 
+/// Mean gap between the fan from `root` and the fan to `apex` over loop `pos`: the volume
+/// between the two (closed by the shared loop) over the loop's vector area.
+pub(crate) fn fan_gap(pos: &[Vec3], root: usize, apex: Vec3) -> f64 {
+    let m = pos.len();
+    let (mut vol, mut n) = (0.0, Vec3::ZERO);
+    for i in 1..m - 1 {
+        let (a, b, c) = (pos[root], pos[(root + i) % m], pos[(root + i + 1) % m]);
+        vol += (a - apex).dot((b - apex).cross(c - apex));
+        n += (b - a).cross(c - a);
+    }
+    // volume = vol / 6, area = |n| / 2
+    if n == Vec3::ZERO {
+        return f64::INFINITY;
+    }
+    vol.abs() / (3.0 * n.length())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -199,6 +217,15 @@ mod tests {
         .collect();
         // common practice: a comb with three teeth has no kernel point at any vertex
         assert_eq!(fan_root(&p, &cube(), 1.0, None, &mut vec![]), None);
+    }
+
+    #[test]
+    fn gap_to_an_apex_is_the_pyramid_height_over_three() {
+        let p = [Vec3::ZERO, Vec3::X, Vec3::new(1.0, 1.0, 0.0), Vec3::Y];
+        // exact: a pyramid of base area 1 and height 0.3 has volume 0.1
+        for r in 0..4 {
+            assert!((fan_gap(&p, r, Vec3::new(0.5, 0.5, 0.3)) - 0.1).abs() < 1e-15);
+        }
     }
 
     #[test]
