@@ -6,14 +6,14 @@
 //! summing to less than a full turn; the "fan triangulation of a star-shaped polygon", de Berg
 //! et al. 2008, ch. 3). The loop is tested in its projection along the dominant axis of its
 //! Newell normal (Newell 1972; Sutherland et al. 1974) with exact orientation signs
-//! (Shewchuk 1997, [`octocut_surface::predicates::orient2d`]). A fan triangle with its three
-//! vertices on one side plane of the leaf would lie in a face of the leaf, so such a root is
-//! rejected; so is one giving a triangle thinner than `1e-9 h^2`, whose orientation the
+//! (Shewchuk 1997, [`octocut_surface::predicates::orient2d`]). A fan diagonal with both ends on
+//! one side plane of the leaf would lie in a face of the leaf, so such a root is rejected;
+//! so is one giving a triangle thinner than `1e-9 h^2`, whose orientation the
 //! frame shift back could flip. Among valid roots the one with the best worst triangle shape
 //! is taken (ties: the first); with an apex given (a surface point near the loop), the one whose
 //! fan encloses the least volume with the fan to the apex ([`fan_gap`] measures that volume per
-//! area, for the caller to fall back to the apex fan). Invariant: the fan covers the loop's projection exactly once, with
-//! the loop's orientation.
+//! area, for the caller to fall back to the apex fan). Invariant: the fan covers the loop's
+//! projection exactly once, with the loop's orientation.
 
 use octocut_surface::predicates::orient2d;
 use octocut_surface::{Aabb, Vec3};
@@ -88,6 +88,11 @@ pub(crate) fn fan_root(
     let mut best: Option<(usize, f64, f64)> = None;
     'root: for r in 0..m {
         let a = pos[r];
+        // a diagonal in a side plane could run through another point of that face (a
+        // T-junction) or along the neighbour's wall
+        if (2..m - 1).any(|i| masks[r] & masks[(r + i) % m] != 0) {
+            continue;
+        }
         let mut sweep = 0.0;
         let mut worst = f64::INFINITY;
         let mut vol = 0.0;
