@@ -11,7 +11,7 @@
 //! so is one giving a triangle thinner than `1e-9 h^2`, whose orientation the
 //! frame shift back could flip. Among valid roots the one with the best worst triangle shape
 //! is taken (ties: the first); with an apex given (a surface point near the loop), the one whose
-//! fan encloses the least volume with the fan to the apex ([`fan_gap`] measures that volume per
+//! fan encloses the least volume with the fan to the apex (`fan_gap` measures that volume per
 //! area, for the caller to fall back to the apex fan). Invariant: the fan covers the loop's
 //! projection exactly once, with the loop's orientation.
 
