@@ -5,7 +5,7 @@
 //! direction as in the other) the winding number is an integer that changes by exactly the
 //! signed count of surface crossings along any segment, so the vertices of the queried edges
 //! (all edges of leaves the surface touches) take their winding number from one evaluation per
-//! connected set of edges plus the signed crossings (exact, [`crate::crossing::EdgeHits`]). A
+//! connected set of edges plus the signed crossings (exact, `crate::crossing::EdgeHits`). A
 //! set whose crossings disagree around some cycle (a vertex on the surface, a defect), or any
 //! vertex of a surface that is not closed, is evaluated directly, in one batch. Every connected
 //! run of untouched leaves (face adjacency) takes one class, read from an already classified

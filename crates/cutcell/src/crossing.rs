@@ -8,8 +8,9 @@
 //! snapped to the nearest hit if there is one. Invariant: the parameter is clamped into
 //! `[T_EPS, 1 - T_EPS]`, so a crossing never coincides with a grid vertex.
 
-use octocut_surface::crossing::segment_crossing;
-use octocut_surface::{SegmentHit, SurfaceIndex, Vec3};
+use crate::classify::Touched;
+use octocut_surface::crossing::{segment_crossing, Feature};
+use octocut_surface::{SegmentHit, Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
 
 /// Relative margin keeping crossings strictly inside their edge.
@@ -74,12 +75,99 @@ pub(crate) fn edge_crossing(
     }
 }
 
+/// [`EdgeHits::query`] code of an edge known to be uncrossed.
+pub(crate) const UNCROSSED: u32 = 0;
+/// [`EdgeHits::query`] code of an edge to test against the whole surface (its spatial index).
+pub(crate) const WHOLE: u32 = u32::MAX;
+
+/// Bit pattern of a point (with -0 and +0 identified): the key of a shared surface feature.
+#[inline]
+fn point_key(p: Vec3) -> [u64; 3] {
+    [
+        (p.x + 0.0).to_bits(),
+        (p.y + 0.0).to_bits(),
+        (p.z + 0.0).to_bits(),
+    ]
+}
+
+/// Scratch of [`crossings_in`].
+#[derive(Default)]
+pub(crate) struct HitScratch {
+    /// (shared-feature key, direction, hit)
+    pending: Vec<([[u64; 3]; 2], i8, SegmentHit)>,
+    hits: Vec<(SegmentHit, i8)>,
+}
+
+/// The crossings of segment `a`-`b` with the candidate triangles `cands` (a superset of the
+/// triangles it crosses), with their directions, sorted by (t, triangle) into `s.hits`: the
+/// same set as [`SurfaceIndex::segment_crossings`] gives (exact crossings; crossings through
+/// a shared surface edge or vertex counted once, by the lowest triangle, and dropped when the
+/// triangles there disagree on the direction, i.e. the segment grazes a fold).
+fn crossings_in(surf: &Surface, a: Vec3, b: Vec3, cands: &[u32], s: &mut HitScratch) {
+    s.hits.clear();
+    s.pending.clear();
+    let (lo, hi) = (a.min(b), a.max(b));
+    for &t in cands {
+        let tri = surf.corners(t as usize);
+        let (tlo, thi) = (
+            tri[0].min(tri[1]).min(tri[2]),
+            tri[0].max(tri[1]).max(tri[2]),
+        );
+        if !(tlo.cmple(hi).all() && thi.cmpge(lo).all()) {
+            continue;
+        }
+        let Some(c) = segment_crossing(a, b, &tri) else {
+            continue;
+        };
+        let hit = SegmentHit {
+            t: c.t,
+            point: a + c.t * (b - a),
+            triangle: t,
+        };
+        let key = match c.feature {
+            Feature::Interior => {
+                s.hits.push((hit, c.direction));
+                continue;
+            }
+            Feature::Edge(i) => {
+                let (u, v) = (
+                    point_key(tri[i as usize]),
+                    point_key(tri[(i as usize + 1) % 3]),
+                );
+                if u <= v {
+                    [u, v]
+                } else {
+                    [v, u]
+                }
+            }
+            Feature::Vertex(i) => {
+                let u = point_key(tri[i as usize]);
+                [u, u]
+            }
+        };
+        s.pending.push((key, c.direction, hit));
+    }
+    s.pending
+        .sort_unstable_by(|x, y| x.0.cmp(&y.0).then(x.2.triangle.cmp(&y.2.triangle)));
+    for group in s.pending.chunk_by(|x, y| x.0 == y.0) {
+        if group.iter().all(|g| g.1 == group[0].1) {
+            s.hits.push((group[0].2, group[0].1));
+        }
+    }
+    s.hits.sort_unstable_by(|x, y| {
+        x.0.t
+            .total_cmp(&y.0.t)
+            .then(x.0.triangle.cmp(&y.0.triangle))
+    });
+}
+
 /// Surface crossings of a set of elementary edges, keyed by the edges' point ids.
 pub(crate) struct EdgeHits {
     /// Sorted keys `lo << 32 | hi` of the queried edges.
     pub keys: Vec<u64>,
-    /// Whether the edge was queried (false: known uncrossed).
-    pub need: Vec<bool>,
+    /// How each edge was queried: [`UNCROSSED`], [`WHOLE`] or `1 + leaf` (see
+    /// [`EdgeHits::query`]).
+    pub code: Vec<u32>,
     /// CSR offsets into `hits` per edge.
     pub off: Vec<u32>,
     /// Distinct crossings per edge, sorted by `t` (from the `lo` end).
@@ -90,55 +178,65 @@ pub(crate) struct EdgeHits {
 }
 
 impl EdgeHits {
-    /// Queries every edge in `keys` (any order, duplicates allowed), each with a flag "may be
-    /// crossed": an edge listed once with the flag false is known to be uncrossed and is not
-    /// queried.
+    /// Queries every edge in `coded` (any order, duplicates allowed), each with a code:
+    /// [`UNCROSSED`] (known uncrossed: an edge listed once so is not queried), `1 + leaf` for
+    /// an edge lying in the closed box of `leaf`, tested against `touched`'s triangle list of
+    /// that leaf (it holds every triangle meeting the box), or [`WHOLE`].
     pub fn query(
         index: &SurfaceIndex,
         pos: &(dyn Fn(u32) -> Vec3 + Sync),
-        mut flagged: Vec<(u64, bool)>,
+        touched: &Touched,
+        mut coded: Vec<(u64, u32)>,
     ) -> EdgeHits {
-        // false sorts first: the first of equal keys carries the conjunction of the flags
-        flagged.par_sort_unstable();
-        flagged.dedup_by_key(|x| x.0);
-        let keys: Vec<u64> = flagged.iter().map(|x| x.0).collect();
-        let need: Vec<bool> = flagged.iter().map(|x| x.1).collect();
-        drop(flagged);
+        // UNCROSSED sorts first: the first of equal keys carries the proof
+        coded.par_sort_unstable();
+        coded.dedup_by_key(|x| x.0);
+        let keys: Vec<u64> = coded.iter().map(|x| x.0).collect();
+        let code: Vec<u32> = coded.iter().map(|x| x.1).collect();
+        drop(coded);
         let s = index.surface();
         let parts: Vec<(Vec<u32>, Vec<SegmentHit>, Vec<i32>)> = keys
             .par_chunks(1024)
-            .zip(need.par_chunks(1024))
-            .map_init(Vec::new, |buf, (ks, nd)| {
-                let mut n = Vec::with_capacity(ks.len());
-                let mut hits = Vec::new();
-                let mut delta = Vec::with_capacity(ks.len());
-                for (&k, &may) in ks.iter().zip(nd) {
-                    let (p, q) = ((k >> 32) as u32, k as u32);
-                    let (a, b) = (pos(p), pos(q));
-                    buf.clear();
-                    if may {
-                        index.segment_crossings(a, b, buf);
-                    }
-                    let before = hits.len();
-                    let mut d = 0i32;
-                    for h in buf.iter() {
-                        if let Some(c) = segment_crossing(a, b, &s.corners(h.triangle as usize)) {
-                            d += c.direction as i32;
-                        }
-                        // coincident sheets (a doubled facet) cross at the very same place
-                        if hits.len() > before {
-                            let last: &SegmentHit = &hits[hits.len() - 1];
-                            if last.t == h.t {
-                                continue;
+            .zip(code.par_chunks(1024))
+            .map_init(
+                || (Vec::new(), HitScratch::default()),
+                |(buf, sc), (ks, cs)| {
+                    let mut n = Vec::with_capacity(ks.len());
+                    let mut hits = Vec::new();
+                    let mut delta = Vec::with_capacity(ks.len());
+                    for (&k, &c) in ks.iter().zip(cs) {
+                        let (p, q) = ((k >> 32) as u32, k as u32);
+                        let (a, b) = (pos(p), pos(q));
+                        sc.hits.clear();
+                        if c == WHOLE {
+                            index.segment_crossings(a, b, buf);
+                            for h in buf.iter() {
+                                let tri = s.corners(h.triangle as usize);
+                                let dir = segment_crossing(a, b, &tri).map_or(0, |x| x.direction);
+                                sc.hits.push((*h, dir));
                             }
+                        } else if c != UNCROSSED {
+                            crossings_in(s, a, b, touched.of(c - 1), sc);
                         }
-                        hits.push(*h);
+                        let before = hits.len();
+                        let mut d = 0i32;
+                        for &(h, dir) in sc.hits.iter() {
+                            d += dir as i32;
+                            // coincident sheets (a doubled facet) cross at the very same place
+                            if hits.len() > before {
+                                let last: &SegmentHit = &hits[hits.len() - 1];
+                                if last.t == h.t {
+                                    continue;
+                                }
+                            }
+                            hits.push(h);
+                        }
+                        n.push((hits.len() - before) as u32);
+                        delta.push(d);
                     }
-                    n.push((hits.len() - before) as u32);
-                    delta.push(d);
-                }
-                (n, hits, delta)
-            })
+                    (n, hits, delta)
+                },
+            )
             .collect();
         let mut off = Vec::with_capacity(keys.len() + 1);
         off.push(0u32);
@@ -153,7 +251,7 @@ impl EdgeHits {
         }
         EdgeHits {
             keys,
-            need,
+            code,
             off,
             hits,
             delta,
@@ -227,5 +325,34 @@ impl EdgeTable {
     #[inline]
     pub fn find(&self, p: u32, q: u32) -> Option<usize> {
         self.keys.binary_search(&edge_key(p, q)).ok()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::test_support::icosphere;
+
+    #[test]
+    fn candidate_list_crossings_match_the_index_and_count_shared_edges_once() {
+        let index = SurfaceIndex::new(icosphere(Vec3::ZERO, 1.0, 2));
+        let s = index.surface();
+        let all: Vec<u32> = (0..s.triangles.len() as u32).collect();
+        let mut sc = HitScratch::default();
+        let mut buf = Vec::new();
+        // through the centre and through surface vertices (every crossing on a shared vertex)
+        let mut segs: Vec<(Vec3, Vec3)> = s.vertices.iter().map(|&v| (-1.5 * v, 1.5 * v)).collect();
+        segs.push((Vec3::new(-2.0, 0.1, 0.2), Vec3::new(2.0, 0.1, 0.2)));
+        for (a, b) in segs {
+            crossings_in(s, a, b, &all, &mut sc);
+            index.segment_crossings(a, b, &mut buf);
+            let mine: Vec<u32> = sc.hits.iter().map(|h| h.0.triangle).collect();
+            let theirs: Vec<u32> = buf.iter().map(|h| h.triangle).collect();
+            assert_eq!(mine, theirs);
+            // exact: a line through a closed convex surface's interior crosses it twice, once
+            // entering and once leaving, with opposite directions
+            assert_eq!(sc.hits.len(), 2, "{a:?} {b:?}");
+            assert_eq!(sc.hits.iter().map(|h| h.1 as i32).sum::<i32>(), 0);
+        }
     }
 }

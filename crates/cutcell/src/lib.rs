@@ -4,8 +4,8 @@
 //! Pipeline of [`cut_cells`]: conforming face topology of the octree ([`topology`]), vertex
 //! classes by winding number ([`classify`]), edge crossings ([`crossing`]), face clipping
 //! ([`clip`]), closing cut leaves into pieces with wall faces ([`pieces`], feature vertices by
-//! [`feature`]), fluid-region selection, small-cell merging ([`merge`]) and assembly
-//! ([`assemble`]).
+//! [`feature`], loop triangulation by [`wallsplit`]), fluid-region selection, small-cell
+//! merging ([`merge`]) and assembly ([`assemble`]).
 //!
 //! Conventions: a vertex is fluid iff it is not inside (winding number below 1/2) for
 //! [`FluidSide::Outside`], the reverse for [`FluidSide::Inside`]; a crossing never sits on a
@@ -37,10 +37,11 @@ pub mod pieces;
 pub mod test_support;
 pub mod topology;
 mod util;
+pub mod wallsplit;
 
 use assemble::{assemble, AssembleInput, RawFaces, BOUNDARY};
 use clip::ClipCtx;
-use crossing::{edge_key, EdgeHits, EdgeTable};
+use crossing::{edge_key, EdgeHits, EdgeTable, UNCROSSED, WHOLE};
 use merge::{merge_small, MergeInput};
 use octocut_octree::{Domain, Octree};
 use octocut_surface::{SurfaceIndex, Vec3};
@@ -257,18 +258,28 @@ pub fn cut_cells_with_regions(
         (0..n).map(move |i| {
             let (p, q) = (pts[i], pts[(i + 1) % n]);
             let may = probe.is_some_and(|l| t.may_cross(surf, l, g(p), g(q)));
-            (edge_key(p, q), may)
+            // the edge lies in leaf e's closed box: its triangle list holds every candidate
+            (edge_key(p, q), if may { face.e + 1 } else { UNCROSSED })
         })
     };
     let touches = |f: u32| {
         let face = topo.faces[f as usize];
         touched.is(face.e) || (!face.is_boundary() && touched.is(face.n))
     };
-    let keys: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
+    let keys: Vec<(u64, u32)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, touches(f)))
         .collect();
-    let mut eh = EdgeHits::query(index, &gpos, keys);
+    tmark("edgekeys");
+    if std::env::var_os("OCTOCUT_CUT_TIMING").is_some() {
+        let may = keys.iter().filter(|k| k.1 != UNCROSSED).count();
+        eprintln!(
+            "edge keys {} (may cross {may}), faces {}",
+            keys.len(),
+            topo.faces.len()
+        );
+    }
+    let mut eh = EdgeHits::query(index, &gpos, &touched, keys);
     tmark("edgehits");
     let cls = classify::classify(tree, domain, index, &topo, fluid_inside, &touched, &eh);
     report.winding_evaluations = cls.evaluations;
@@ -307,20 +318,20 @@ pub fn cut_cells_with_regions(
         .collect();
 
     // a mixed face away from every touched leaf (rare: classes decided at a grazing surface)
-    let extra: Vec<(u64, bool)> = (0..topo.faces.len() as u32)
+    let extra: Vec<(u64, u32)> = (0..topo.faces.len() as u32)
         .into_par_iter()
         .flat_map_iter(|f| face_keys(f, face_mix[f as usize] == 3 && !touches(f)))
-        .map(|(k, _)| (k, true))
+        .map(|(k, _)| (k, WHOLE))
         .collect();
     if !extra.is_empty() {
-        let mut all: Vec<(u64, bool)> = eh
+        let mut all: Vec<(u64, u32)> = eh
             .keys
             .iter()
             .copied()
-            .zip(eh.need.iter().copied())
+            .zip(eh.code.iter().copied())
             .collect();
         all.extend(extra);
-        eh = EdgeHits::query(index, &gpos, all);
+        eh = EdgeHits::query(index, &gpos, &touched, all);
     }
     topo.corners = Vec::new();
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
@@ -490,6 +501,10 @@ pub fn cut_cells_with_regions(
     let n_raw = cell_leaf.len();
     // all point positions
     let new_pts: usize = chunks.iter().map(|c| c.new_pts.len()).sum();
+    if std::env::var_os("OCTOCUT_CUT_TIMING").is_some() {
+        let walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
+        eprintln!("wall faces {walls}, wall apex points {new_pts}");
+    }
     let mut points: Vec<Vec3> =
         Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
     points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
@@ -888,7 +903,7 @@ mod tests;
 
 /// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
 /// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
-fn tmark(name: &str) {
+pub(crate) fn tmark(name: &str) {
     use std::sync::Mutex;
     static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
     if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {

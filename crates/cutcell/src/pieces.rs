@@ -9,8 +9,10 @@
 //! between them on the surface) are joined through the cell, splitting the loop into parts on
 //! either side of the edge. A part whose crossing and pierce-point normals differ by more than
 //! the feature angle is fanned to the dual-contouring feature vertex (Ju et al. 2002), else a
-//! planar single-tag part is kept as one face and any other is fanned to the surface point
-//! nearest its centroid. Volumes follow from the divergence
+//! planar single-tag part is kept as one face and any other is split into triangles from one
+//! of its vertices ([`crate::wallsplit`]) or, when no vertex sees the whole part or that split
+//! strays from the surface, fanned to the surface point nearest its centroid. Volumes follow
+//! from the divergence
 //! theorem over the closed piece boundary. Invariant: every piece is a closed oriented surface.
 
 use crate::clip::Clip;
@@ -88,6 +90,7 @@ pub(crate) struct Scratch {
     sub: Vec<u32>,
     alive: Vec<bool>,
     ends: Vec<u32>,
+    masks: Vec<u8>,
 }
 
 /// A reusable union-find (empty by default).
@@ -116,6 +119,12 @@ fn on_one_face(cell: &Aabb, h: f64, p: &[Vec3]) -> bool {
             || p.iter().all(|q| (q[a] - cell.max[a]).abs() <= tol)
     })
 }
+
+/// Largest mean gap (in leaf edges) between a loop's own-vertex fan and its fan to the nearest
+/// surface point for the own-vertex fan to be used (our choice, tuned so that coarse cells on a
+/// curved body keep the more accurate apex fan; at 1/128 of a unit sphere's radius almost no
+/// loop needs it).
+const FAN_GAP: f64 = 3e-3;
 
 #[inline]
 fn fan_volume(p: &[Vec3], r: Vec3) -> f64 {
@@ -566,8 +575,8 @@ impl CellCtx<'_> {
             out.wall_tag.push(tag);
             return fan_volume(&s.pos, r);
         }
-        // a smooth loop fans to the surface point nearest its centroid (on the surface, so the
-        // wall interpolates it); a sharp one to the feature vertex
+        // otherwise a smooth loop fans to the surface point nearest its centroid (on the surface,
+        // so the wall interpolates it); a sharp one to the feature vertex
         // the apex stays strictly inside the leaf: on its boundary it would stand on a face or
         // edge of the leaf without being one of that face's vertices (a T-junction)
         let inner = cell.inflated(-crate::crossing::T_EPS * h);
@@ -616,6 +625,28 @@ impl CellCtx<'_> {
                         tag
                     });
                     vol += fan_volume(&[p0, a, b], r);
+                }
+                return vol;
+            }
+        }
+        // a smooth loop splits into triangles of its own vertices when a vertex sees all others
+        // and that fan stays within `FAN_GAP` of the one to the surface point
+        if !feature && !flat {
+            let root = crate::wallsplit::fan_root(&s.pos, cell, h, Some(apex), &mut s.masks)
+                .filter(|&root| crate::wallsplit::fan_gap(&s.pos, root, apex) <= FAN_GAP * h);
+            if let Some(root) = root {
+                for i in 1..m - 1 {
+                    let t = [root, (root + i) % m, (root + i + 1) % m];
+                    let q = t.map(|j| s.pos[j]);
+                    out.wall_pts.extend(t.map(|j| ids[j]));
+                    out.wall_len.push(3);
+                    out.wall_piece.push(piece);
+                    out.wall_tag.push(if mixed {
+                        self.nearest_tag((q[0] + q[1] + q[2]) / 3.0)
+                    } else {
+                        tag
+                    });
+                    vol += fan_volume(&q, r);
                 }
                 return vol;
             }
