@@ -9,7 +9,7 @@
 //! `[T_EPS, 1 - T_EPS]`, so a crossing never coincides with a grid vertex.
 
 use crate::classify::Touched;
-use octocut_surface::crossing::{segment_crossing, Feature};
+use octocut_surface::crossing::{segment_crossing, CrossingMerge};
 use octocut_surface::{SegmentHit, Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
 
@@ -80,33 +80,21 @@ pub(crate) const UNCROSSED: u32 = 0;
 /// [`EdgeHits::query`] code of an edge to test against the whole surface (its spatial index).
 pub(crate) const WHOLE: u32 = u32::MAX;
 
-/// Bit pattern of a point (with -0 and +0 identified): the key of a shared surface feature.
-#[inline]
-fn point_key(p: Vec3) -> [u64; 3] {
-    [
-        (p.x + 0.0).to_bits(),
-        (p.y + 0.0).to_bits(),
-        (p.z + 0.0).to_bits(),
-    ]
-}
-
 /// Scratch of [`crossings_in`].
 #[derive(Default)]
 pub(crate) struct HitScratch {
-    /// (shared-feature key, direction, hit)
-    pending: Vec<([[u64; 3]; 2], i8, SegmentHit)>,
+    merge: CrossingMerge,
     hits: Vec<(SegmentHit, i8)>,
 }
 
 /// The crossings of segment `a`-`b` with the candidate triangles `cands` (a superset of the
 /// triangles it crosses), with their directions, sorted by (t, triangle) into `s.hits`: the
-/// same set as [`SurfaceIndex::segment_crossings`] gives (exact crossings; crossings through
-/// a shared surface edge or vertex counted once, by the lowest triangle, and dropped when the
-/// triangles there disagree on the direction, i.e. the segment grazes a fold).
+/// same set as [`SurfaceIndex::segment_crossings`] gives (both merge through
+/// [`CrossingMerge`]: exact crossings, one per shared surface edge or vertex).
 fn crossings_in(surf: &Surface, a: Vec3, b: Vec3, cands: &[u32], s: &mut HitScratch) {
     s.hits.clear();
-    s.pending.clear();
     let (lo, hi) = (a.min(b), a.max(b));
+    let hits = &mut s.hits;
     for &t in cands {
         let tri = surf.corners(t as usize);
         let (tlo, thi) = (
@@ -116,45 +104,10 @@ fn crossings_in(surf: &Surface, a: Vec3, b: Vec3, cands: &[u32], s: &mut HitScra
         if !(tlo.cmple(hi).all() && thi.cmpge(lo).all()) {
             continue;
         }
-        let Some(c) = segment_crossing(a, b, &tri) else {
-            continue;
-        };
-        let hit = SegmentHit {
-            t: c.t,
-            point: a + c.t * (b - a),
-            triangle: t,
-        };
-        let key = match c.feature {
-            Feature::Interior => {
-                s.hits.push((hit, c.direction));
-                continue;
-            }
-            Feature::Edge(i) => {
-                let (u, v) = (
-                    point_key(tri[i as usize]),
-                    point_key(tri[(i as usize + 1) % 3]),
-                );
-                if u <= v {
-                    [u, v]
-                } else {
-                    [v, u]
-                }
-            }
-            Feature::Vertex(i) => {
-                let u = point_key(tri[i as usize]);
-                [u, u]
-            }
-        };
-        s.pending.push((key, c.direction, hit));
+        s.merge.add(a, b, t, &tri, |h, d| hits.push((h, d)));
     }
-    s.pending
-        .sort_unstable_by(|x, y| x.0.cmp(&y.0).then(x.2.triangle.cmp(&y.2.triangle)));
-    for group in s.pending.chunk_by(|x, y| x.0 == y.0) {
-        if group.iter().all(|g| g.1 == group[0].1) {
-            s.hits.push((group[0].2, group[0].1));
-        }
-    }
-    s.hits.sort_unstable_by(|x, y| {
+    s.merge.finish(|h, d| hits.push((h, d)));
+    hits.sort_unstable_by(|x, y| {
         x.0.t
             .total_cmp(&y.0.t)
             .then(x.0.triangle.cmp(&y.0.triangle))

@@ -15,6 +15,7 @@
 //! crossing; the parameter `t` is a float estimate, the crossing decision is exact.
 
 use crate::geom::Vec3;
+use crate::index::SegmentHit;
 use crate::predicates::orient3d;
 
 /// Where a crossing meets its triangle.
@@ -127,6 +128,71 @@ pub(crate) fn feature_key(tri: &[Vec3; 3], f: Feature) -> Option<[PointKey; 2]> 
             let u = point_key(tri[i as usize]);
             Some([u, u])
         }
+    }
+}
+
+/// The crossings of one segment with a set of triangles, merged where they meet the surface
+/// on a shared edge or vertex: such a crossing counts once (the hit of the lowest triangle
+/// id), and not at all when the triangles there disagree on the direction (the segment grazes
+/// a fold). Interior crossings pass straight through. Reusable scratch: [`CrossingMerge::add`]
+/// every candidate triangle, then [`CrossingMerge::finish`].
+///
+/// ```
+/// use octocut_surface::crossing::CrossingMerge;
+/// use octocut_surface::{Surface, Vec3};
+/// let s = Surface::unit_cube();
+/// // through the diagonal edge shared by the two triangles of the faces z = 0 and z = 1
+/// let (a, b) = (Vec3::new(0.5, 0.5, -1.0), Vec3::new(0.5, 0.5, 2.0));
+/// let mut merge = CrossingMerge::default();
+/// let mut hits = Vec::new();
+/// for t in 0..s.triangles.len() as u32 {
+///     merge.add(a, b, t, &s.corners(t as usize), |h, dir| hits.push((h, dir)));
+/// }
+/// merge.finish(|h, dir| hits.push((h, dir)));
+/// assert_eq!(hits.len(), 2); // exact: the segment enters and leaves the cube once each
+/// ```
+#[derive(Default)]
+pub struct CrossingMerge {
+    pending: Vec<([PointKey; 2], i8, SegmentHit)>,
+}
+
+impl CrossingMerge {
+    /// Tests triangle `t` (corners `tri`) against segment `a`-`b`: an interior crossing goes to
+    /// `push(hit, direction)` at once, one on an edge or vertex waits for [`Self::finish`].
+    #[inline]
+    pub fn add(
+        &mut self,
+        a: Vec3,
+        b: Vec3,
+        t: u32,
+        tri: &[Vec3; 3],
+        mut push: impl FnMut(SegmentHit, i8),
+    ) {
+        let Some(c) = segment_crossing(a, b, tri) else {
+            return;
+        };
+        let hit = SegmentHit {
+            t: c.t,
+            point: a + c.t * (b - a),
+            triangle: t,
+        };
+        match feature_key(tri, c.feature) {
+            None => push(hit, c.direction),
+            Some(key) => self.pending.push((key, c.direction, hit)),
+        }
+    }
+
+    /// Hands the merged edge and vertex crossings to `push` (ordered by feature, then lowest
+    /// triangle) and empties the scratch.
+    pub fn finish(&mut self, mut push: impl FnMut(SegmentHit, i8)) {
+        self.pending
+            .sort_unstable_by(|x, y| x.0.cmp(&y.0).then(x.2.triangle.cmp(&y.2.triangle)));
+        for group in self.pending.chunk_by(|x, y| x.0 == y.0) {
+            if group.iter().all(|g| g.1 == group[0].1) {
+                push(group[0].2, group[0].1);
+            }
+        }
+        self.pending.clear();
     }
 }
 

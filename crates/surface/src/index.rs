@@ -11,7 +11,7 @@
 //! (the hierarchical winding number within the accuracy set by [`IndexOptions::winding_beta`]).
 
 use crate::bvh::ClusterBvh;
-use crate::crossing::{feature_key, segment_crossing, Feature, PointKey};
+use crate::crossing::CrossingMerge;
 use crate::geom::{Aabb, Vec3};
 use crate::surface::Surface;
 use crate::tree::RadixTree;
@@ -87,11 +87,8 @@ pub struct SurfaceIndex {
     winding: WindingTree,
 }
 
-/// A feature crossing waiting for the merge: its key, direction and hit.
-type Pending = ([PointKey; 2], i8, SegmentHit);
-
 thread_local! {
-    static PENDING: RefCell<Vec<Pending>> = const { RefCell::new(Vec::new()) };
+    static MERGE: RefCell<CrossingMerge> = RefCell::new(CrossingMerge::default());
 }
 
 impl SurfaceIndex {
@@ -249,32 +246,15 @@ impl SurfaceIndex {
     /// ```
     pub fn segment_crossings(&self, a: Vec3, b: Vec3, out: &mut Vec<SegmentHit>) {
         out.clear();
-        PENDING.with(|cell| {
-            let mut pending = cell.borrow_mut();
-            pending.clear();
+        MERGE.with(|cell| {
+            let mut merge = cell.borrow_mut();
             self.bvh.for_each_on_segment(a, b, |k| {
                 for &t in self.cluster_triangles(k) {
                     let tri = self.surface.corners(t as usize);
-                    let Some(c) = segment_crossing(a, b, &tri) else {
-                        continue;
-                    };
-                    let hit = SegmentHit {
-                        t: c.t,
-                        point: a + c.t * (b - a),
-                        triangle: t,
-                    };
-                    match (c.feature, feature_key(&tri, c.feature)) {
-                        (Feature::Interior, _) | (_, None) => out.push(hit),
-                        (_, Some(key)) => pending.push((key, c.direction, hit)),
-                    }
+                    merge.add(a, b, t, &tri, |h, _| out.push(h));
                 }
             });
-            pending.sort_unstable_by(|x, y| x.0.cmp(&y.0).then(x.2.triangle.cmp(&y.2.triangle)));
-            for group in pending.chunk_by(|x, y| x.0 == y.0) {
-                if group.iter().all(|g| g.1 == group[0].1) {
-                    out.push(group[0].2);
-                }
-            }
+            merge.finish(|h, _| out.push(h));
         });
         sort_hits(out);
     }
