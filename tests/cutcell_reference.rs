@@ -500,17 +500,10 @@ fn prism_resting_on_a_box_top_in_a_grid_plane_stays_valid() {
     }
 }
 
-#[test]
-fn two_overlapping_rotated_cubes_stay_valid() {
-    // regression: the concave edges where two rotated cubes intersect, fluid inside; before the
-    // fix a wall fan diagonal lay in a face plane through another cut point (VertexOnEdge)
-    let c1 = Vec3::new(0.41812720983398116, 0.4554723096132617, 0.5241016390964719);
-    let ang = [
-        0.03517768541210764,
-        0.2552845462313291,
-        0.5346793961609182,
-        2.995306921241081,
-    ];
+/// Two overlapping rotated cubes (edges 0.25 and 0.22, the second shifted by (0.2, 0.05, 0.02)),
+/// fluid inside, meshed at `levels`: every mesh valid and, exact, the union's volume between
+/// the larger part's and the sum of both.
+fn overlapping_cubes_stay_valid(c1: Vec3, ang: [f64; 4], levels: &[u8]) {
     let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
     s.append(rotated_cube(
         c1 + Vec3::new(0.2, 0.05, 0.02),
@@ -519,35 +512,42 @@ fn two_overlapping_rotated_cubes_stay_valid() {
         ang[3],
     ));
     let (v1, v2) = (0.25f64.powi(3), 0.22f64.powi(3));
-    for lv in [4u8, 5] {
+    for &lv in levels {
         let v = valid_inside(&s, lv);
         eprintln!(
-            "two cubes level {lv}: fluid {v:.9}, bounds [{:.9}, {:.9}]",
-            v1,
+            "two cubes level {lv}: fluid {v:.9}, bounds [{v1:.9}, {:.9}]",
             v1 + v2
         );
-        // exact: a union's volume lies between the larger part's and the sum of both
         assert!(v > v1.max(v2) && v < v1 + v2, "level {lv}: {v}");
     }
+}
+
+#[test]
+fn two_overlapping_rotated_cubes_stay_valid() {
+    // regression: the concave edges where two rotated cubes intersect, fluid inside; before the
+    // fix a wall fan diagonal lay in a face plane through another cut point (VertexOnEdge)
+    overlapping_cubes_stay_valid(
+        Vec3::new(0.41812720983398116, 0.4554723096132617, 0.5241016390964719),
+        [
+            0.03517768541210764,
+            0.2552845462313291,
+            0.5346793961609182,
+            2.995306921241081,
+        ],
+        &[4, 5],
+    );
     // regression: two pieces of one leaf meeting along the concave edge; one piece's feature
     // vertex lay on the other piece's wall edge along that edge (VertexOnEdge at level 5)
-    let c1 = Vec3::new(0.42889475159411794, 0.47002568278203216, 0.5152975598267014);
-    let ang = [
-        1.2688951476316088,
-        1.439943900681992,
-        0.680349332497181,
-        2.610248150182177,
-    ];
-    let mut s = rotated_cube(c1, 0.25, ang[0], ang[1]);
-    s.append(rotated_cube(
-        c1 + Vec3::new(0.2, 0.05, 0.02),
-        0.22,
-        ang[2],
-        ang[3],
-    ));
-    let v = valid_inside(&s, 5);
-    eprintln!("two cubes (second pair) level 5: fluid {v:.9}");
-    assert!(v > v1.max(v2) && v < v1 + v2, "{v}");
+    overlapping_cubes_stay_valid(
+        Vec3::new(0.42889475159411794, 0.47002568278203216, 0.5152975598267014),
+        [
+            1.2688951476316088,
+            1.439943900681992,
+            0.680349332497181,
+            2.610248150182177,
+        ],
+        &[5],
+    );
 }
 
 #[test]
