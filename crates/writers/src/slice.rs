@@ -317,7 +317,13 @@ pub fn slice_cells_on_planes(
     planes: &[AxisPlane],
 ) -> Vec<Vec<SlicePolygon>> {
     const CHUNK: usize = 4096;
-    assert!(planes.len() <= 32, "at most 32 planes at once");
+    if planes.len() > 32 {
+        // one bit per plane in a u32 mask: 32 planes a pass
+        return planes
+            .chunks(32)
+            .flat_map(|group| slice_cells_on_planes(cells, group))
+            .collect();
+    }
     let pts = cells.points();
     // bit i of a point: on or above plane i (the side rule of the cut itself)
     let side: Vec<u32> = pts
@@ -1220,10 +1226,14 @@ mod tests {
         let poly = polyhedra(&boxes, cube(Vec3::ZERO, 1.0));
         let mesh = volume_mesh(&boxes);
         let vm = VolumeMeshCells::new(&mesh);
-        // planes through vertices (0.25, 0.5, 1.0), the domain floor (0.0) and between them
+        // planes through vertices (multiples of 0.25), the domain floor (0.0) and between them;
+        // 123 planes, more than the 32 of one pass
         let planes: Vec<AxisPlane> = (0..3)
             .flat_map(|axis| {
-                [0.0, 0.1, 0.25, 0.5, 0.77, 1.0].map(|value| AxisPlane { axis, value })
+                (0..=40).map(move |i| AxisPlane {
+                    axis,
+                    value: i as f64 / 40.0 + if i % 7 == 3 { 0.013 } else { 0.0 },
+                })
             })
             .collect();
         let (a, b) = (
