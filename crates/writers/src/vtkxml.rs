@@ -289,6 +289,16 @@ pub fn push_id(b: &mut Vec<u8>, wide: bool, v: i64) {
     }
 }
 
+/// Held id values as [`id_kind`]`(max)` stores them (the writers' reference tests build whole
+/// arrays this way).
+#[cfg(test)]
+pub(crate) fn id_values(v: Vec<i64>, max: usize) -> Values {
+    match id_kind(max) {
+        Kind::I64 => Values::I64(v),
+        _ => Values::I32(v.into_iter().map(|x| x as i32).collect()),
+    }
+}
+
 /// The kind of id arrays whose largest value is `max`: Int32 when it fits (half the bytes of
 /// Int64; VTK's XML readers convert either to their id type), Int64 otherwise.
 pub fn id_kind(max: usize) -> Kind {

@@ -215,13 +215,7 @@ mod tests {
             xa.write(w, "        ", arr("Points", 3, Values::F64(pts)))?;
             writeln!(w, "      </Points>")?;
             writeln!(w, "      <Polys>")?;
-            let ids = |v: Vec<i64>, max: usize| {
-                if id_kind(max) == Kind::I64 {
-                    Values::I64(v)
-                } else {
-                    Values::I32(v.into_iter().map(|x| x as i32).collect())
-                }
-            };
+            let ids = crate::vtkxml::id_values;
             let max = used.len().max(conn.len());
             xa.write(w, "        ", arr("connectivity", 1, ids(conn, max)))?;
             xa.write(w, "        ", arr("offsets", 1, ids(offs, max)))?;

@@ -679,15 +679,8 @@ mod tests {
                 faceoffsets,
             } = cells;
             let has_poly = !faceoffsets.is_empty();
-            let wide =
-                id_kind(ids_max(mesh.points.len(), connectivity.len(), faces.len())) == Kind::I64;
-            let ids = |v: Vec<i64>| {
-                if wide {
-                    Values::I64(v)
-                } else {
-                    Values::I32(v.into_iter().map(|x| x as i32).collect())
-                }
-            };
+            let max = ids_max(mesh.points.len(), connectivity.len(), faces.len());
+            let ids = |v: Vec<i64>| crate::vtkxml::id_values(v, max);
             xa.write(w, "        ", arr("connectivity", 1, ids(connectivity)))?;
             xa.write(w, "        ", arr("offsets", 1, ids(offsets)))?;
             xa.write(w, "        ", arr("types", 1, Values::U8(types)))?;
