@@ -14,40 +14,77 @@ use rayon::prelude::*;
 pub(crate) const BOUNDARY: u32 = u32::MAX;
 
 /// Faces before assembly; each polygon is oriented out of cell `a`.
+///
+/// The vertex lists are two CSR segments, so that the clipped face polygons can be taken over
+/// as they are and the wall faces added without moving them: faces `0..first.len()` are in
+/// `first`, the rest in `second`.
 #[derive(Default)]
 pub(crate) struct RawFaces {
-    pub off: Vec<u32>,
-    pub pts: Vec<u32>,
+    pub first: Csr,
+    pub second: Csr,
     pub a: Vec<u32>,
     pub b: Vec<u32>,
     /// Boundary kind: side `0..6` or `6 + wall tag`.
     pub kind: Vec<u32>,
 }
 
-impl RawFaces {
-    pub fn push(&mut self, pts: &[u32], a: u32, b: u32, kind: u32) {
-        if self.off.is_empty() {
-            self.off.push(0);
+/// Vertex lists as offsets (starting at 0) and concatenated ids.
+pub(crate) struct Csr {
+    pub off: Vec<u32>,
+    pub pts: Vec<u32>,
+}
+
+impl Default for Csr {
+    fn default() -> Self {
+        Csr {
+            off: vec![0],
+            pts: Vec::new(),
         }
+    }
+}
+
+impl Csr {
+    pub fn len(&self) -> usize {
+        self.off.len() - 1
+    }
+    pub fn get(&self, f: usize) -> &[u32] {
+        &self.pts[self.off[f] as usize..self.off[f + 1] as usize]
+    }
+    fn push(&mut self, pts: &[u32]) {
         self.pts.extend_from_slice(pts);
         self.off.push(self.pts.len() as u32);
+    }
+}
+
+impl RawFaces {
+    /// Appends a face (to the second segment).
+    pub fn push(&mut self, pts: &[u32], a: u32, b: u32, kind: u32) {
+        self.second.push(pts);
         self.a.push(a);
         self.b.push(b);
         self.kind.push(kind);
     }
-    /// Reserves room for `faces` more faces with `pts` more point ids in all.
-    pub fn reserve(&mut self, faces: usize, pts: usize) {
-        self.off.reserve(faces + 1);
-        self.pts.reserve(pts);
-        self.a.reserve(faces);
-        self.b.reserve(faces);
-        self.kind.reserve(faces);
-    }
     pub fn len(&self) -> usize {
         self.a.len()
     }
+    #[inline]
     pub fn face(&self, f: usize) -> &[u32] {
-        &self.pts[self.off[f] as usize..self.off[f + 1] as usize]
+        let n = self.first.len();
+        if f < n {
+            self.first.get(f)
+        } else {
+            self.second.get(f - n)
+        }
+    }
+    /// The faces whose kind is not `kind`, in order (all in the second segment).
+    pub fn without_kind(self, kind: u32) -> RawFaces {
+        let mut out = RawFaces::default();
+        for i in 0..self.len() {
+            if self.kind[i] != kind {
+                out.push(self.face(i), self.a[i], self.b[i], self.kind[i]);
+            }
+        }
+        out
     }
 }
 
@@ -68,32 +105,41 @@ pub(crate) struct AssembleInput<'a> {
 pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
     let f = &inp.faces;
     // interior (owner, neighbour, raw face, reversed); boundary (kind, then patch, owner, raw face)
-    let mut interior: Vec<(u32, u32, u32, bool)> = Vec::new();
-    let mut boundary: Vec<(u32, u32, u32)> = Vec::new();
-    let mut tags_used: Vec<u32> = Vec::new();
-    for i in 0..f.len() {
-        let ca = inp.cell_id[f.a[i] as usize];
-        if ca == u32::MAX {
-            continue;
-        }
-        if f.b[i] == BOUNDARY {
-            boundary.push((f.kind[i], ca, i as u32));
-            if f.kind[i] >= 6 {
-                tags_used.push(f.kind[i] - 6);
+    let mut interior: Vec<(u32, u32, u32, bool)> = (0..f.len() as u32)
+        .into_par_iter()
+        .with_min_len(4096)
+        .filter_map(|i| {
+            let i_ = i as usize;
+            let ca = inp.cell_id[f.a[i_] as usize];
+            if ca == u32::MAX || f.b[i_] == BOUNDARY {
+                return None;
             }
-        } else {
-            let cb = inp.cell_id[f.b[i] as usize];
+            let cb = inp.cell_id[f.b[i_] as usize];
             if cb == u32::MAX || cb == ca {
-                continue;
+                return None;
             }
             // owner is the lower cell id; the polygon is reversed when it points into it
-            interior.push(if ca < cb {
-                (ca, cb, i as u32, false)
+            Some(if ca < cb {
+                (ca, cb, i, false)
             } else {
-                (cb, ca, i as u32, true)
-            });
-        }
-    }
+                (cb, ca, i, true)
+            })
+        })
+        .collect();
+    let boundary: Vec<(u32, u32, u32)> = (0..f.len() as u32)
+        .into_par_iter()
+        .with_min_len(4096)
+        .filter_map(|i| {
+            let i_ = i as usize;
+            let ca = inp.cell_id[f.a[i_] as usize];
+            (ca != u32::MAX && f.b[i_] == BOUNDARY).then_some((f.kind[i_], ca, i))
+        })
+        .collect();
+    let mut tags_used: Vec<u32> = boundary
+        .iter()
+        .filter(|b| b.0 >= 6)
+        .map(|b| b.0 - 6)
+        .collect();
     tags_used.sort_unstable();
     tags_used.dedup();
     // patch order: walls by tag, then the six sides
@@ -106,53 +152,71 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
     };
     interior.par_sort_unstable();
     let mut boundary: Vec<(u32, u32, u32)> = boundary
-        .into_iter()
+        .into_par_iter()
         .map(|(k, c, i)| (patch_of(k), c, i))
         .collect();
     boundary.par_sort_unstable();
-    let nfaces = interior.len() + boundary.len();
-    let mut face_offsets = Vec::with_capacity(nfaces + 1);
-    face_offsets.push(0u32);
-    let n_pts: usize = interior
-        .iter()
-        .map(|x| x.2)
-        .chain(boundary.iter().map(|x| x.2))
-        .map(|i| (f.off[i as usize + 1] - f.off[i as usize]) as usize)
-        .sum();
-    let mut face_vertices = Vec::with_capacity(n_pts);
-    let mut owner = Vec::with_capacity(nfaces);
-    let mut neighbour = Vec::with_capacity(interior.len());
-    let np = inp.points.len();
-    let mut new_id = vec![u32::MAX; np];
-    let mut used = vec![false; np];
-    let mut emit = |fv: &mut Vec<u32>, fo: &mut Vec<u32>, i: u32, rev: bool| {
-        let p = f.face(i as usize);
-        let start = fv.len();
-        fv.extend_from_slice(p);
-        if rev {
-            fv[start..].reverse();
-        }
-        for &q in p {
-            used[q as usize] = true;
-        }
-        fo.push(fv.len() as u32);
-    };
-    for &(o, n, i, rev) in &interior {
-        emit(&mut face_vertices, &mut face_offsets, i, rev);
-        owner.push(o);
-        neighbour.push(n);
-    }
+    let n_interior = interior.len() as u32;
+    // final face order: raw face and whether it is reversed
+    let order: Vec<(u32, bool)> = interior
+        .par_iter()
+        .map(|x| (x.2, x.3))
+        .chain(boundary.par_iter().map(|x| (x.2, false)))
+        .collect();
+    let owner: Vec<u32> = interior
+        .par_iter()
+        .map(|x| x.0)
+        .chain(boundary.par_iter().map(|x| x.1))
+        .collect();
+    let neighbour: Vec<u32> = interior.par_iter().map(|x| x.1).collect();
     let n_patches = tags_used.len() + 6;
     let mut counts = vec![0u32; n_patches];
-    for &(p, c, i) in &boundary {
-        emit(&mut face_vertices, &mut face_offsets, i, false);
-        owner.push(c);
+    for &(p, _, _) in &boundary {
         counts[p as usize] += 1;
     }
-    let n_interior = interior.len() as u32;
     drop(interior);
     drop(boundary);
+    // vertex lists copied in parallel, a run of faces at a time (each run's vertices are one
+    // contiguous range)
+    const RUN: usize = 4096;
+    let len = |i: u32| f.face(i as usize).len() as u32;
+    let run_lens: Vec<Vec<u32>> = order
+        .par_chunks(RUN)
+        .map(|r| r.iter().map(|&(i, _)| len(i)).collect())
+        .collect();
+    let face_offsets = crate::concat::offsets(&run_lens);
+    let run_pts = run_lens
+        .iter()
+        .map(|l| l.iter().map(|&x| x as usize).sum::<usize>());
+    let mut face_vertices = vec![0u32; *face_offsets.last().unwrap() as usize];
+    let np = inp.points.len();
+    let used: Vec<std::sync::atomic::AtomicBool> = (0..np)
+        .into_par_iter()
+        .map(|_| std::sync::atomic::AtomicBool::new(false))
+        .collect();
+    crate::concat::split_by(&mut face_vertices, run_pts)
+        .into_par_iter()
+        .zip(order.par_chunks(RUN))
+        .for_each(|(out, r)| {
+            let mut at = 0;
+            for &(i, rev) in r {
+                let p = f.face(i as usize);
+                let o = &mut out[at..at + p.len()];
+                o.copy_from_slice(p);
+                if rev {
+                    o.reverse();
+                }
+                for &q in p {
+                    used[q as usize].store(true, std::sync::atomic::Ordering::Relaxed);
+                }
+                at += p.len();
+            }
+        });
+    drop(order);
+    drop(run_lens);
     drop(inp.faces);
+    let used: Vec<bool> = used.into_iter().map(|u| u.into_inner()).collect();
+    let mut new_id = vec![u32::MAX; np];
     let mut points = Vec::with_capacity(used.iter().filter(|&&u| u).count());
     for q in 0..np {
         if used[q] {
@@ -160,9 +224,10 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
             points.push(inp.points[q]);
         }
     }
-    for v in &mut face_vertices {
-        *v = new_id[*v as usize];
-    }
+    face_vertices
+        .par_iter_mut()
+        .with_min_len(4096)
+        .for_each(|v| *v = new_id[*v as usize]);
     let mut patches = Vec::with_capacity(n_patches);
     let mut start = n_interior;
     for (p, &count) in counts.iter().enumerate() {

@@ -56,6 +56,13 @@ impl Clip {
     pub fn poke_plane(&self, k: u32) -> Option<(Vec3, u32)> {
         self.poke_plane.get(k as usize).copied()
     }
+    /// Frees the chords (only closing the cut leaves reads them).
+    pub fn release_chords(&mut self) {
+        self.face_chord = Vec::new();
+        self.chord_off = Vec::new();
+        self.chord_pts = Vec::new();
+        self.chord_poly = Vec::new();
+    }
     pub fn chord(&self, c: u32) -> &[u32] {
         &self.chord_pts
             [self.chord_off[c as usize] as usize..self.chord_off[c as usize + 1] as usize]
@@ -674,6 +681,16 @@ impl ClipCtx<'_> {
             pair: vec![[Vec3::ZERO; 2]; pk.hit.len()],
             fallbacks: chunks.iter().map(|c| c.fallbacks).sum(),
         };
+        // exact sizes up front: the chunks are freed one by one while the arrays fill, and no
+        // array is reallocated on the way (peak memory)
+        let total = |f: &dyn Fn(&Chunk) -> usize| chunks.iter().map(f).sum::<usize>();
+        c.poly_off.reserve_exact(total(&|ch| ch.poly_len.len()));
+        c.poly_pts.reserve_exact(total(&|ch| ch.poly_pts.len()));
+        c.chord_off.reserve_exact(total(&|ch| ch.chord_len.len()));
+        c.chord_pts.reserve_exact(total(&|ch| ch.chord_pts.len()));
+        c.chord_poly.reserve_exact(total(&|ch| ch.chord_poly.len()));
+        c.pierce.reserve_exact(total(&|ch| ch.pierce.len()));
+        c.pair.reserve_exact(total(&|ch| ch.pair.len()));
         c.face_poly.push(0);
         c.face_chord.push(0);
         let remap = |p: u32, base: u32| {

@@ -29,6 +29,7 @@
 pub mod assemble;
 pub mod classify;
 pub mod clip;
+mod concat;
 pub mod crossing;
 pub mod feature;
 pub mod merge;
@@ -341,7 +342,7 @@ pub fn cut_cells_with_regions(
         return Err(CutError::TooManyPoints(pierce_base));
     }
     let pierce_base = pierce_base as u32;
-    let clip = ClipCtx {
+    let mut clip = ClipCtx {
         domain,
         index,
         topo: &topo,
@@ -399,6 +400,7 @@ pub fn cut_cells_with_regions(
             out
         })
         .collect();
+    clip.release_chords();
     tmark("close");
     // warnings: edges crossed more than once, leaves with a surface inside but uniform classes
     let warn = |l: u32, reason: &str, report: &mut CutReport| {
@@ -505,34 +507,77 @@ pub fn cut_cells_with_regions(
         let walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
         eprintln!("wall faces {walls}, wall apex points {new_pts}");
     }
-    let mut points: Vec<Vec3> =
-        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
-    points.extend(topo.grid.iter().map(|&g| true_domain.point(g)));
-    points.extend(edges.crossings.iter().map(|c| c.point));
-    points.extend_from_slice(&clip.pierce);
-    // free what the faces no longer need (peak memory)
-    drop(edges);
+    // free what the faces no longer need before the new arrays (peak memory)
+    let grid = std::mem::take(&mut topo.grid);
+    topo.release_vertex_data();
     drop(cls);
     drop(face_mix);
     drop(mix);
     drop(multi);
     drop(touched);
-    topo.release_vertex_data();
-    // polygon -> cell on each side
+    let mut points: Vec<Vec3> =
+        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
+    points.extend(grid.iter().map(|&g| true_domain.point(g)));
+    drop(grid);
+    points.extend(edges.crossings.iter().map(|c| c.point));
+    drop(edges);
+    points.extend_from_slice(&clip.pierce);
+    // polygon -> cell on each side (and the box side of boundary polygons), in parallel over
+    // runs of faces: the polygons of a face run are one contiguous range
     let npoly = clip.poly_off.len() - 1;
-    let mut poly_e = vec![u32::MAX; npoly];
-    let mut poly_n = vec![u32::MAX; npoly];
-    for (f, face) in topo.faces.iter().enumerate() {
-        for p in clip.polys_of(f as u32) {
-            if status[face.e as usize] == FLUID {
-                poly_e[p as usize] = leaf_cell[face.e as usize];
-            }
-            if !face.is_boundary() && status[face.n as usize] == FLUID {
-                poly_n[p as usize] = leaf_cell[face.n as usize];
-            }
-        }
+    // room for the wall faces too (appended below without moving these)
+    let n_walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
+    let room = |v: u32| {
+        let mut x = Vec::with_capacity(npoly + n_walls);
+        x.resize(npoly, v);
+        x
+    };
+    let mut poly_e = room(u32::MAX);
+    let mut poly_n = room(u32::MAX);
+    let mut poly_kind = room(0u32);
+    // polygons with a side that is no cell (not expected: a fluid polygon has fluid cells on
+    // both sides) are left out below: the boundary marker must not stand for a missing cell
+    const DEAD: u32 = u32::MAX;
+    const INTERIOR: u32 = u32::MAX - 1;
+    {
+        const RUN: usize = 4096;
+        let nf = topo.faces.len();
+        let runs: Vec<usize> = (0..nf.div_ceil(RUN))
+            .map(|r| {
+                let (f0, f1) = (r * RUN, ((r + 1) * RUN).min(nf));
+                (clip.face_poly[f1] - clip.face_poly[f0]) as usize
+            })
+            .collect();
+        let pe = concat::split_by(&mut poly_e, runs.iter().copied());
+        let pn = concat::split_by(&mut poly_n, runs.iter().copied());
+        let pk = concat::split_by(&mut poly_kind, runs.iter().copied());
+        pe.into_par_iter()
+            .zip(pn)
+            .zip(pk)
+            .enumerate()
+            .for_each(|(r, ((pe, pn), pk))| {
+                let (f0, f1) = (r * RUN, ((r + 1) * RUN).min(nf));
+                let p0 = clip.face_poly[f0];
+                for f in f0..f1 {
+                    let face = topo.faces[f];
+                    for p in clip.polys_of(f as u32) {
+                        let i = (p - p0) as usize;
+                        if status[face.e as usize] == FLUID {
+                            pe[i] = leaf_cell[face.e as usize];
+                        }
+                        if face.is_boundary() {
+                            pk[i] = face.n - topology::SIDE_BASE;
+                        } else {
+                            pk[i] = INTERIOR;
+                            if status[face.n as usize] == FLUID {
+                                pn[i] = leaf_cell[face.n as usize];
+                            }
+                        }
+                    }
+                }
+            });
     }
-    let mut raw = RawFaces::default();
+    let mut raw;
     {
         // chunk-local piece indices and points to global ids, in place
         let mut cut_iter = cut_leaves.iter();
@@ -565,38 +610,56 @@ pub fn cut_cells_with_regions(
             ch.poly_piece = Vec::new();
             ch.new_pts = Vec::new();
         }
-        let n_walls: usize = chunks.iter().map(|c| c.wall_len.len()).sum();
-        let wall_pts: usize = chunks.iter().map(|c| c.wall_pts.len()).sum();
-        raw.reserve(
-            clip.poly_off.len() - 1 + n_walls,
-            clip.poly_pts.len() + wall_pts,
-        );
-        for (f, face) in topo.faces.iter().enumerate() {
-            for p in clip.polys_of(f as u32) {
-                let a = poly_e[p as usize];
-                debug_assert!(a != u32::MAX);
-                if face.is_boundary() {
-                    raw.push(clip.poly(p), a, BOUNDARY, face.n - topology::SIDE_BASE);
-                } else {
-                    let b = poly_n[p as usize];
-                    debug_assert!(b != u32::MAX);
-                    if a == u32::MAX || b == u32::MAX {
-                        continue;
-                    }
-                    raw.push(clip.poly(p), a, b, 0);
+        let dead: usize = poly_kind
+            .par_iter_mut()
+            .zip(poly_e.par_iter().zip(poly_n.par_iter()))
+            .with_min_len(4096)
+            .map(|(k, (&a, &b))| {
+                let interior = *k == INTERIOR;
+                if interior {
+                    *k = 0;
                 }
-            }
+                if a == u32::MAX || (interior && b == u32::MAX) {
+                    *k = DEAD;
+                    return 1;
+                }
+                0
+            })
+            .sum();
+        // the clipped polygons become the first raw faces as they are (no copy), the wall
+        // faces the second segment, gathered in parallel
+        let lens: Vec<Vec<u32>> = chunks
+            .iter_mut()
+            .map(|c| std::mem::take(&mut c.wall_len))
+            .collect();
+        let wpts: Vec<Vec<u32>> = chunks
+            .iter_mut()
+            .map(|c| std::mem::take(&mut c.wall_pts))
+            .collect();
+        let second = assemble::Csr {
+            off: concat::offsets(&lens),
+            pts: concat::concat(&wpts),
+        };
+        drop((lens, wpts));
+        for ch in &chunks {
+            poly_e.extend_from_slice(&ch.wall_piece);
+            poly_n.extend(std::iter::repeat_n(BOUNDARY, ch.wall_piece.len()));
+            poly_kind.extend(ch.wall_tag.iter().map(|&t| 6 + t));
         }
+        drop(chunks);
+        raw = RawFaces {
+            first: assemble::Csr {
+                off: std::mem::take(&mut clip.poly_off),
+                pts: std::mem::take(&mut clip.poly_pts),
+            },
+            second,
+            a: poly_e,
+            b: poly_n,
+            kind: poly_kind,
+        };
         drop(clip);
-        drop(poly_e);
-        drop(poly_n);
-        for ch in chunks {
-            let mut off = 0usize;
-            for (w, &len) in ch.wall_len.iter().enumerate() {
-                let f = &ch.wall_pts[off..off + len as usize];
-                off += len as usize;
-                raw.push(f, ch.wall_piece[w], BOUNDARY, 6 + ch.wall_tag[w]);
-            }
+        if dead > 0 {
+            raw = raw.without_kind(DEAD);
         }
     }
     tmark("rawfaces");
@@ -626,20 +689,38 @@ pub fn cut_cells_with_regions(
                 cell_vol[c] = 0.0;
             }
         }
-        for i in 0..raw.len() {
+        // face terms in parallel, a block at a time, added in face order (identical sums at
+        // any thread count, bounded memory)
+        const BLOCK: usize = 1 << 16;
+        let term = |i: usize, c: u32| -> f64 {
+            if c == BOUNDARY || cell_cut[c as usize] == 0 {
+                return 0.0;
+            }
             let f = raw.face(i);
-            for (c, sign) in [(raw.a[i], 1.0), (raw.b[i], -1.0)] {
-                if c == BOUNDARY || cell_cut[c as usize] == 0 {
-                    continue;
+            let r = centre(c);
+            let x0 = points[f[0] as usize] - r;
+            let mut area = Vec3::ZERO;
+            for j in 1..f.len() - 1 {
+                area += (points[f[j] as usize] - r - x0).cross(points[f[j + 1] as usize] - r - x0);
+            }
+            x0.dot(area) / 6.0
+        };
+        let mut terms: Vec<(f64, f64)> = Vec::with_capacity(BLOCK);
+        for b0 in (0..raw.len()).step_by(BLOCK) {
+            let b1 = (b0 + BLOCK).min(raw.len());
+            (b0..b1)
+                .into_par_iter()
+                .with_min_len(1024)
+                .map(|i| (term(i, raw.a[i]), term(i, raw.b[i])))
+                .collect_into_vec(&mut terms);
+            for (i, &(ta, tb)) in (b0..b1).zip(&terms) {
+                let (a, b) = (raw.a[i] as usize, raw.b[i]);
+                if cell_cut[a] != 0 {
+                    cell_vol[a] += ta;
                 }
-                let r = centre(c);
-                let x0 = points[f[0] as usize] - r;
-                let mut area = Vec3::ZERO;
-                for j in 1..f.len() - 1 {
-                    area +=
-                        (points[f[j] as usize] - r - x0).cross(points[f[j + 1] as usize] - r - x0);
+                if b != BOUNDARY && cell_cut[b as usize] != 0 {
+                    cell_vol[b as usize] -= tb;
                 }
-                cell_vol[c as usize] += sign * x0.dot(area) / 6.0;
             }
         }
     }
@@ -723,22 +804,24 @@ pub fn cut_cells_with_regions(
     report.merged_cells = merged.merged;
     tmark("merge");
     let mut uf = merged.uf;
-    for &t in &merged.tiny {
-        // tiny isolated groups: report with their volume and a vertex centroid
-        let mut c = Vec3::ZERO;
-        let mut n = 0.0f64;
+    if !merged.tiny.is_empty() {
+        // tiny isolated groups: report with their volume and a vertex centroid (one pass over
+        // the faces; `tiny` is sorted)
+        let mut acc = vec![(Vec3::ZERO, 0.0f64); merged.tiny.len()];
         for i in 0..raw.len() {
-            if uf.find(raw.a[i]) == t {
+            if let Ok(k) = merged.tiny.binary_search(&uf.find(raw.a[i])) {
                 for &q in raw.face(i) {
-                    c += points[q as usize];
-                    n += 1.0;
+                    acc[k].0 += points[q as usize];
+                    acc[k].1 += 1.0;
                 }
             }
         }
-        report.dropped_pieces.push(DroppedPiece {
-            volume: merged.group_volume[t as usize],
-            point: (c / n.max(1.0)).to_array(),
-        });
+        for (k, &t) in merged.tiny.iter().enumerate() {
+            report.dropped_pieces.push(DroppedPiece {
+                volume: merged.group_volume[t as usize],
+                point: (acc[k].0 / acc[k].1.max(1.0)).to_array(),
+            });
+        }
     }
     let mut cell_id = vec![u32::MAX; n_raw];
     let mut root_id = vec![u32::MAX; n_raw];

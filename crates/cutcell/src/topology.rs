@@ -9,6 +9,7 @@
 //! Invariants: faces are oriented counter-clockwise seen from outside the enumerating leaf `e`;
 //! every leaf's faces tile its boundary exactly once. Needs fewer than 2^29 leaves (slot ids).
 
+use crate::concat::{concat, offsets};
 use octocut_octree::{OctKey, Octree};
 use rayon::prelude::*;
 
@@ -16,7 +17,7 @@ use rayon::prelude::*;
 pub(crate) const SIDE_BASE: u32 = u32::MAX - 5;
 
 /// One elementary face: the face of leaf `e` across direction `dir` (0 -x, 1 +x, .. 5 +z).
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, Default)]
 pub(crate) struct EFace {
     pub e: u32,
     pub n: u32,
@@ -140,19 +141,21 @@ impl Topology {
             })
             .collect();
         crate::tmark("topo.enum");
-        let nf: usize = chunks.iter().map(|c| c.0.len()).sum();
-        let mut faces = Vec::with_capacity(nf);
-        let mut face_off = Vec::with_capacity(nf + 1);
-        let mut face_pts = Vec::with_capacity(chunks.iter().map(|c| c.2.len()).sum());
-        face_off.push(0u32);
-        for (f, lens, pts) in chunks {
-            faces.extend(f);
-            for l in lens {
-                let last = *face_off.last().unwrap();
-                face_off.push(last + l);
-            }
-            face_pts.extend(pts);
-        }
+        let (face_parts, lens, pts): (Vec<_>, Vec<_>, Vec<_>) =
+            chunks
+                .into_iter()
+                .fold((Vec::new(), Vec::new(), Vec::new()), |mut acc, c| {
+                    acc.0.push(c.0);
+                    acc.1.push(c.1);
+                    acc.2.push(c.2);
+                    acc
+                });
+        let face_pts = concat(&pts);
+        drop(pts);
+        let face_off = offsets(&lens);
+        drop(lens);
+        let faces = concat(&face_parts);
+        drop(face_parts);
         crate::tmark("topo.concat");
         crate::tmark("topo.faces");
         // leaf -> faces
@@ -302,30 +305,71 @@ impl Vertices {
     }
 }
 
-/// The group (distinct key, numbered in key order) of each of the `n` slots, from packed
-/// (key, slot) values sorted in parallel, and the number of groups.
+/// The group (distinct key, numbered in key order) of each of the `n` slots, and the number of
+/// groups. `pack(s)` is slot `s`'s (key, slot) value, `key` and `slot` take it apart.
+///
+/// Two rounds of sorting: each block of [`SLOT_BLOCK`] consecutive slots is sorted alone (in
+/// cache) and keeps one representative per key, its first slot; then the representatives of
+/// all blocks are sorted together in parallel. Neighbouring leaves share most corners, so the
+/// second sort sees a fraction of the slots. The groups are those of one global sort.
 fn group_slots<T: Ord + Copy + Send + Sync>(
     n: usize,
     pack: impl Fn(usize) -> T + Sync + Send,
-    key: impl Fn(T) -> T,
-    slot: impl Fn(T) -> usize,
+    key: impl Fn(T) -> T + Sync + Send,
+    slot: impl Fn(T) -> usize + Sync + Send,
 ) -> (Vec<u32>, u32) {
-    let mut v: Vec<T> = (0..n)
+    let nb = n.div_ceil(SLOT_BLOCK);
+    // per block: representatives in key order, and each slot's representative index
+    let blocks: Vec<(Vec<T>, Vec<u32>)> = (0..nb)
         .into_par_iter()
-        .with_min_len(4096)
-        .map(pack)
+        .map(|b| {
+            let (lo, hi) = (b * SLOT_BLOCK, ((b + 1) * SLOT_BLOCK).min(n));
+            let mut v: Vec<T> = (lo..hi).map(&pack).collect();
+            v.sort_unstable();
+            let mut reps = Vec::with_capacity(v.len() / 2);
+            let mut local = vec![0u32; hi - lo];
+            for (i, &x) in v.iter().enumerate() {
+                if i == 0 || key(v[i - 1]) != key(x) {
+                    reps.push(x);
+                }
+                local[slot(x) - lo] = reps.len() as u32 - 1;
+            }
+            (reps, local)
+        })
         .collect();
-    v.par_sort_unstable();
-    let mut group = vec![0u32; n];
+    let mut all: Vec<T> = Vec::with_capacity(blocks.iter().map(|b| b.0.len()).sum());
+    for b in &blocks {
+        all.extend_from_slice(&b.0);
+    }
+    all.par_sort_unstable();
+    // group of every representative; a block's representatives come in its own key order, so
+    // the k-th one of block b met here is its k-th
+    let mut rep_group: Vec<Vec<u32>> = blocks.iter().map(|b| vec![0; b.0.len()]).collect();
+    let mut next = vec![0u32; nb];
     let mut ng = 0u32;
-    for (i, &x) in v.iter().enumerate() {
-        if i == 0 || key(v[i - 1]) != key(x) {
+    for (i, &x) in all.iter().enumerate() {
+        if i == 0 || key(all[i - 1]) != key(x) {
             ng += 1;
         }
-        group[slot(x)] = ng - 1;
+        let b = slot(x) / SLOT_BLOCK;
+        rep_group[b][next[b] as usize] = ng - 1;
+        next[b] += 1;
     }
+    drop(all);
+    let mut group = vec![0u32; n];
+    group
+        .par_chunks_mut(SLOT_BLOCK)
+        .zip(blocks.par_iter().zip(rep_group.par_iter()))
+        .for_each(|(g, ((_, local), rg))| {
+            for (x, &r) in g.iter_mut().zip(local) {
+                *x = rg[r as usize];
+            }
+        });
     (group, ng)
 }
+
+/// Slots sorted together in the first round of [`group_slots`] (a multiple of 8: whole leaves).
+const SLOT_BLOCK: usize = 4096;
 
 /// Appends the polygon of leaf `k`'s face in direction `d`, counter-clockwise seen from outside.
 fn face_polygon(lines: &Lines, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u32>) {
