@@ -8,10 +8,7 @@
 use rayon::prelude::*;
 
 /// Splits `out` into consecutive slices of the given lengths.
-pub(crate) fn split_by<'a, T>(
-    mut out: &'a mut [T],
-    lens: impl Iterator<Item = usize>,
-) -> Vec<&'a mut [T]> {
+pub(crate) fn split_by<T>(mut out: &mut [T], lens: impl Iterator<Item = usize>) -> Vec<&mut [T]> {
     let mut v = Vec::new();
     for n in lens {
         let (a, b) = std::mem::take(&mut out).split_at_mut(n);

@@ -476,7 +476,13 @@ impl VolumeMesh {
     fn check_duplicate_points(&self, out: &mut Vec<Problem>) {
         let pts = &self.points;
         // exact coordinate bits (+ 0.0 turns -0.0 into 0.0: equal coordinates, equal bits)
-        let bits = |p: Vec3| [(p.x + 0.0).to_bits(), (p.y + 0.0).to_bits(), (p.z + 0.0).to_bits()];
+        let bits = |p: Vec3| {
+            [
+                (p.x + 0.0).to_bits(),
+                (p.y + 0.0).to_bits(),
+                (p.z + 0.0).to_bits(),
+            ]
+        };
         // (hash of the bits, id) pairs sorted: equal points sit in one run of equal hashes,
         // ids ascending; 16 bytes a point, no comparison reads the points
         let mut keyed: Vec<(u64, u32)> = pts
