@@ -580,8 +580,8 @@ mod tests {
             [1., 1., 1.],
             [0., 1., 1.],
         ];
-        for k in 0..8 {
-            assert_eq!(m.points[c.connectivity[k] as usize].to_array(), expect[k]);
+        for (&v, want) in c.connectivity.iter().zip(&expect) {
+            assert_eq!(m.points[v as usize].to_array(), *want);
         }
         // one refined cell: 8 fine hexahedra, the far coarse corner cell is a hexahedron, the
         // six coarse cells touching the refined one by a side or an edge carry split faces or
