@@ -15,7 +15,7 @@ use octocut_octree::{
 use octocut_surface::{
     health, load_stl_files, repair, HealthReport, RepairOptions, Surface, SurfaceIndex, Vec3,
 };
-use octocut_volmesh::{quality, PatchKind, QualityReport, VolumeMesh, NO_REGION};
+use octocut_volmesh::{quality_with, PatchKind, QualityReport, VolumeMesh, NO_REGION};
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -354,11 +354,13 @@ impl Mesher {
         release_free_memory();
         check()?;
         let mesh = cut.mesh;
-        let validation = clock.run(hooks, Stage::Validate, "cells", || {
-            let v = mesh.validate();
+        // the cell geometry the proof computes (cell -> faces, volumes, centroids) goes on to
+        // quality instead of being computed again
+        let (validation, geometry) = clock.run(hooks, Stage::Validate, "cells", || {
+            let (v, g) = mesh.validate_keeping_geometry();
             release_free_memory();
             let n = v.n_cells as u64;
-            Ok::<_, MeshError>((v, n))
+            Ok::<_, MeshError>(((v, g), n))
         })?;
         if !validation.is_valid() {
             let first: Vec<String> = validation
@@ -374,8 +376,11 @@ impl Mesher {
             )));
         }
         check()?;
+        let geometry = geometry.ok_or_else(|| {
+            MeshError::Internal("validation kept no cell geometry of a valid mesh".into())
+        })?;
         let q = clock.run(hooks, Stage::Quality, "faces", || {
-            let q = quality(&mesh, |l| domain.cell_size(l));
+            let q = quality_with(&mesh, geometry, |l| domain.cell_size(l));
             release_free_memory();
             Ok::<_, MeshError>((q, mesh.n_faces() as u64))
         })?;

@@ -1,5 +1,6 @@
 //! Face and cell geometry of a [`VolumeMesh`]: face area vectors and centroids, cell volumes and
-//! centroids, and the cell -> faces CSR.
+//! centroids, the cell -> faces CSR, and [`CellGeometry`] (the per-cell part, computed once and
+//! shared by validation and quality).
 //!
 //! Method (common practice in finite-volume codes, see Moukalled, Mangani and Darwish 2016, "The
 //! Finite Volume Method in Computational Fluid Dynamics", chapter on the mesh's geometric
@@ -39,11 +40,18 @@ pub fn polygon_area_centroid(points: &[Vec3], verts: &[u32]) -> (Vec3, Vec3) {
         c0 += points[v as usize];
     }
     c0 /= n as f64;
+    // the fan edges (a, b) = (v_i, v_(i+1 mod n)), each end point's offset from c0 computed
+    // once and carried to the next edge (the same operations as recomputing it)
+    let first = points[verts[0] as usize];
     let mut area = Vec3::ZERO;
+    let mut ra = first - c0;
     for i in 0..n {
-        let a = points[verts[i] as usize];
-        let b = points[verts[(i + 1) % n] as usize];
-        area += 0.5 * (a - c0).cross(b - c0);
+        let rb = match verts.get(i + 1) {
+            Some(&v) => points[v as usize] - c0,
+            None => first - c0,
+        };
+        area += 0.5 * ra.cross(rb);
+        ra = rb;
     }
     let len = area.length();
     if len == 0.0 {
@@ -52,12 +60,17 @@ pub fn polygon_area_centroid(points: &[Vec3], verts: &[u32]) -> (Vec3, Vec3) {
     let nrm = area / len;
     let mut wsum = 0.0;
     let mut csum = Vec3::ZERO;
+    let (mut a, mut ra) = (first, first - c0);
     for i in 0..n {
-        let a = points[verts[i] as usize];
-        let b = points[verts[(i + 1) % n] as usize];
-        let w = 0.5 * (a - c0).cross(b - c0).dot(nrm);
+        let b = match verts.get(i + 1) {
+            Some(&v) => points[v as usize],
+            None => first,
+        };
+        let rb = b - c0;
+        let w = 0.5 * ra.cross(rb).dot(nrm);
         wsum += w;
         csum += w * (c0 + a + b) / 3.0;
+        (a, ra) = (b, rb);
     }
     if wsum.abs() <= f64::EPSILON * len {
         return (area, c0);
@@ -67,7 +80,7 @@ pub fn polygon_area_centroid(points: &[Vec3], verts: &[u32]) -> (Vec3, Vec3) {
 
 /// The faces of every cell, as CSR: cell `c` has faces `faces[offsets[c]..offsets[c + 1]]`,
 /// in increasing face order.
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug, Default, PartialEq)]
 pub struct CellFaces {
     pub offsets: Vec<u32>,
     pub faces: Vec<u32>,
@@ -117,12 +130,77 @@ impl CellFaces {
     }
 }
 
+/// Volume and centroid of every cell, with the cell -> faces CSR they were computed from: the
+/// per-cell geometry that validation computes anyway ([`VolumeMesh::validate_keeping_geometry`])
+/// and quality needs ([`crate::quality::quality_with`]), so it is computed once per run.
+///
+/// ```
+/// use octocut_volmesh::{geometry::CellGeometry, testmesh};
+/// let m = testmesh::block(2, 0.5);
+/// let g = CellGeometry::new(&m);
+/// // exact: cubes of edge 1/2, the first at the origin (to round-off)
+/// assert!(g.volume.iter().all(|v| (v - 0.125).abs() < 1e-15));
+/// assert!((g.centroid[0] - octocut_surface::Vec3::splat(0.25)).length() < 1e-15);
+/// ```
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct CellGeometry {
+    pub faces: CellFaces,
+    /// [`cell_volume_centroid`]'s volume of each cell.
+    pub volume: Vec<f64>,
+    /// [`cell_volume_centroid`]'s centroid of each cell.
+    pub centroid: Vec<Vec3>,
+}
+
+impl CellGeometry {
+    /// Computes the CSR and every cell's volume and centroid, in parallel chunks (the values do
+    /// not depend on the thread count: each cell is computed alone).
+    pub fn new(mesh: &VolumeMesh) -> CellGeometry {
+        let faces = CellFaces::new(mesh);
+        let nc = mesh.n_cells();
+        let mut volume = vec![0.0f64; nc];
+        let mut centroid = vec![Vec3::ZERO; nc];
+        volume
+            .par_chunks_mut(GEOMETRY_CHUNK)
+            .zip(centroid.par_chunks_mut(GEOMETRY_CHUNK))
+            .enumerate()
+            .for_each(|(k, (vs, cs))| {
+                let mut averages = Vec::new();
+                for (i, (v, x)) in vs.iter_mut().zip(cs.iter_mut()).enumerate() {
+                    let c = k * GEOMETRY_CHUNK + i;
+                    let g = cell_volume_centroid_with(mesh, c as u32, faces.of(c), &mut averages);
+                    (*v, *x) = (g.volume, g.centroid);
+                }
+            });
+        CellGeometry {
+            faces,
+            volume,
+            centroid,
+        }
+    }
+}
+
+/// Cells per unit of parallel work of [`CellGeometry::new`].
+const GEOMETRY_CHUNK: usize = 4096;
+
 /// Volume and centroid of cell `c`, its faces `faces` oriented outward when `owner[f] == c`
 /// and inward otherwise. Also returns the sum of the outward face area vectors and the sum of
 /// the face area magnitudes (the closure residual and its scale).
 pub fn cell_volume_centroid(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeom {
+    cell_volume_centroid_with(mesh, c, faces, &mut Vec::new())
+}
+
+/// [`cell_volume_centroid`] with a scratch buffer for the face vertex averages (reused across
+/// calls, so a pass over many cells allocates once). Same operations in the same order, so the
+/// same bits.
+pub fn cell_volume_centroid_with(
+    mesh: &VolumeMesh,
+    c: u32,
+    faces: &[u32],
+    averages: &mut Vec<Vec3>,
+) -> CellGeom {
     let pts = &mesh.points;
     // reference point: average of the face vertex averages
+    averages.clear();
     let mut r = Vec3::ZERO;
     for &f in faces {
         let vs = mesh.face(f as usize);
@@ -130,17 +208,18 @@ pub fn cell_volume_centroid(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeo
         for &v in vs {
             c0 += pts[v as usize];
         }
-        r += c0 / vs.len().max(1) as f64;
+        let c0 = c0 / vs.len().max(1) as f64;
+        averages.push(c0);
+        r += c0;
     }
     r /= faces.len().max(1) as f64;
     let mut vol = 0.0;
     let mut cen = Vec3::ZERO;
     let mut area_sum = Vec3::ZERO;
     let mut area_mag = 0.0;
-    for &f in faces {
+    for (&f, &c0) in faces.iter().zip(averages.iter()) {
         let vs = mesh.face(f as usize);
-        let n = vs.len();
-        if n == 0 {
+        if vs.is_empty() {
             continue;
         }
         let sign = if mesh.owner[f as usize] == c {
@@ -148,20 +227,23 @@ pub fn cell_volume_centroid(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeo
         } else {
             -1.0
         };
-        let mut c0 = Vec3::ZERO;
-        for &v in vs {
-            c0 += pts[v as usize];
-        }
-        c0 /= n as f64;
+        // fan edges (a, b) = (v_i, v_(i+1 mod n)); each end point's offsets from r and c0 are
+        // computed once and carried to the next edge
+        let first = pts[vs[0] as usize];
+        let p = c0 - r;
+        let (mut qa, mut ca) = (first - r, first - c0);
         let mut fa = Vec3::ZERO;
-        for i in 0..n {
-            let a = pts[vs[i] as usize];
-            let b = pts[vs[(i + 1) % n] as usize];
-            let (p, q, s) = (c0 - r, a - r, b - r);
-            let tv = sign * p.dot(q.cross(s)) / 6.0;
+        for i in 0..vs.len() {
+            let b = match vs.get(i + 1) {
+                Some(&v) => pts[v as usize],
+                None => first,
+            };
+            let (s, cb) = (b - r, b - c0);
+            let tv = sign * p.dot(qa.cross(s)) / 6.0;
             vol += tv;
-            cen += tv * (p + q + s) / 4.0;
-            fa += 0.5 * (a - c0).cross(b - c0);
+            cen += tv * (p + qa + s) / 4.0;
+            fa += 0.5 * ca.cross(cb);
+            (qa, ca) = (s, cb);
         }
         area_sum += sign * fa;
         area_mag += fa.length();
@@ -224,6 +306,141 @@ impl MeshGeometry {
             cell_volume,
             cell_centroid,
             cell_faces,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::testmesh;
+    use rand::{RngExt, SeedableRng};
+
+    /// The polygon formula as first written (modulo indexing, every offset recomputed): the
+    /// reference the faster loop must reproduce bit for bit.
+    fn polygon_area_centroid_former(points: &[Vec3], verts: &[u32]) -> (Vec3, Vec3) {
+        let n = verts.len();
+        if n == 0 {
+            return (Vec3::ZERO, Vec3::ZERO);
+        }
+        let mut c0 = Vec3::ZERO;
+        for &v in verts {
+            c0 += points[v as usize];
+        }
+        c0 /= n as f64;
+        let mut area = Vec3::ZERO;
+        for i in 0..n {
+            let a = points[verts[i] as usize];
+            let b = points[verts[(i + 1) % n] as usize];
+            area += 0.5 * (a - c0).cross(b - c0);
+        }
+        let len = area.length();
+        if len == 0.0 {
+            return (area, c0);
+        }
+        let nrm = area / len;
+        let mut wsum = 0.0;
+        let mut csum = Vec3::ZERO;
+        for i in 0..n {
+            let a = points[verts[i] as usize];
+            let b = points[verts[(i + 1) % n] as usize];
+            let w = 0.5 * (a - c0).cross(b - c0).dot(nrm);
+            wsum += w;
+            csum += w * (c0 + a + b) / 3.0;
+        }
+        if wsum.abs() <= f64::EPSILON * len {
+            return (area, c0);
+        }
+        (area, csum / wsum)
+    }
+
+    /// The cell formula as first written (see [`polygon_area_centroid_former`]).
+    fn cell_volume_centroid_former(mesh: &VolumeMesh, c: u32, faces: &[u32]) -> CellGeom {
+        let pts = &mesh.points;
+        let mut r = Vec3::ZERO;
+        for &f in faces {
+            let vs = mesh.face(f as usize);
+            let mut c0 = Vec3::ZERO;
+            for &v in vs {
+                c0 += pts[v as usize];
+            }
+            r += c0 / vs.len().max(1) as f64;
+        }
+        r /= faces.len().max(1) as f64;
+        let (mut vol, mut cen, mut area_sum, mut area_mag) = (0.0, Vec3::ZERO, Vec3::ZERO, 0.0);
+        for &f in faces {
+            let vs = mesh.face(f as usize);
+            let n = vs.len();
+            if n == 0 {
+                continue;
+            }
+            let sign = if mesh.owner[f as usize] == c {
+                1.0
+            } else {
+                -1.0
+            };
+            let mut c0 = Vec3::ZERO;
+            for &v in vs {
+                c0 += pts[v as usize];
+            }
+            c0 /= n as f64;
+            let mut fa = Vec3::ZERO;
+            for i in 0..n {
+                let a = pts[vs[i] as usize];
+                let b = pts[vs[(i + 1) % n] as usize];
+                let (p, q, s) = (c0 - r, a - r, b - r);
+                let tv = sign * p.dot(q.cross(s)) / 6.0;
+                vol += tv;
+                cen += tv * (p + q + s) / 4.0;
+                fa += 0.5 * (a - c0).cross(b - c0);
+            }
+            area_sum += sign * fa;
+            area_mag += fa.length();
+        }
+        let centroid = if vol != 0.0 { r + cen / vol } else { r };
+        CellGeom {
+            volume: vol,
+            centroid,
+            area_sum,
+            area_mag,
+        }
+    }
+
+    #[test]
+    fn faster_loops_give_the_former_bits() {
+        // hanging faces (5- and 8-vertex polygons), a clipped cell, an L cell, and the refined
+        // block with every point moved at random (non-planar faces, no exact cancellations)
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        let mut jittered = testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 2, 0]]);
+        for p in jittered.points.iter_mut() {
+            *p += Vec3::new(
+                rng.random_range(-0.05..0.05),
+                rng.random_range(-0.05..0.05),
+                rng.random_range(-0.05..0.05),
+            );
+        }
+        for m in [
+            testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0]]),
+            testmesh::clipped_cube(),
+            testmesh::l_cell(),
+            jittered,
+        ] {
+            for f in 0..m.n_faces() {
+                let (a, c) = polygon_area_centroid(&m.points, m.face(f));
+                let (a0, c0) = polygon_area_centroid_former(&m.points, m.face(f));
+                assert_eq!((a.to_array(), c.to_array()), (a0.to_array(), c0.to_array()));
+            }
+            let g = CellGeometry::new(&m);
+            for c in 0..m.n_cells() {
+                let new = cell_volume_centroid(&m, c as u32, g.faces.of(c));
+                let old = cell_volume_centroid_former(&m, c as u32, g.faces.of(c));
+                assert_eq!(new.volume.to_bits(), old.volume.to_bits());
+                assert_eq!(new.centroid.to_array(), old.centroid.to_array());
+                assert_eq!(new.area_sum.to_array(), old.area_sum.to_array());
+                assert_eq!(new.area_mag.to_bits(), old.area_mag.to_bits());
+                assert_eq!(g.volume[c].to_bits(), old.volume.to_bits());
+                assert_eq!(g.centroid[c].to_array(), old.centroid.to_array());
+            }
         }
     }
 }

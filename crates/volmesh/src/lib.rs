@@ -17,5 +17,5 @@ pub mod validation;
 
 pub use mesh::{Patch, PatchKind, VolumeMesh, NO_REGION};
 
-pub use quality::{quality, QualityReport};
+pub use quality::{quality, quality_with, QualityReport};
 pub use validation::{Problem, ValidationReport};

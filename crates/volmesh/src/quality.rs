@@ -23,7 +23,7 @@
 
 #[cfg(test)]
 use crate::geometry::MeshGeometry;
-use crate::geometry::{cell_volume_centroid, polygon_area_centroid, CellFaces};
+use crate::geometry::{polygon_area_centroid, CellGeometry};
 use crate::mesh::VolumeMesh;
 use crate::validation::CHUNK;
 use octocut_surface::Vec3;
@@ -303,11 +303,7 @@ fn flags(v: f64, t: &Threshold) -> bool {
 
 /// Computes every measure; `cell_size(level)` is the edge of a full cube of that level.
 ///
-/// Streams over the cells (two parallel passes in fixed chunks): the first keeps each cell's
-/// volume and centroid, the second computes every face's area vector and centroid on the fly
-/// from each of its cells, fills the per-cell arrays and gathers the face figures (each face
-/// counted once, by its owner); nothing is stored per face. Sums are taken per chunk, then
-/// over the chunks in order.
+/// Computes the cell geometry ([`CellGeometry::new`]), then [`quality_with`].
 ///
 /// ```
 /// use octocut_volmesh::{quality, testmesh};
@@ -317,23 +313,45 @@ fn flags(v: f64, t: &Threshold) -> bool {
 /// assert_eq!(q.volume_ratio.max, 1.0);
 /// ```
 pub fn quality(mesh: &VolumeMesh, cell_size: impl Fn(u8) -> f64 + Sync) -> QualityReport {
+    quality_with(mesh, CellGeometry::new(mesh), cell_size)
+}
+
+/// [`quality`] from the cell geometry already computed, e.g. by
+/// [`VolumeMesh::validate_keeping_geometry`]; the volumes move into
+/// [`CellQuality::volume`], the rest is freed before returning. The report is the one
+/// [`quality`] gives.
+///
+/// Streams over the cells in parallel fixed chunks: every face's area vector and centroid are
+/// computed on the fly from each of its cells, the per-cell arrays filled and the face figures
+/// gathered (each face counted once, by its owner); nothing is stored per face. Sums are taken
+/// per chunk, then over the chunks in order.
+///
+/// # Panics
+/// When `geometry` has not one entry per cell of `mesh`.
+///
+/// ```
+/// use octocut_volmesh::{quality, quality::quality_with, testmesh};
+/// let m = testmesh::refined_block(2, 1.0, &[[1, 0, 0]]);
+/// let (_, g) = m.validate_keeping_geometry();
+/// assert_eq!(quality_with(&m, g.unwrap(), |l| 0.5f64.powi(l as i32)), quality(&m, |l| 0.5f64.powi(l as i32)));
+/// ```
+pub fn quality_with(
+    mesh: &VolumeMesh,
+    geometry: CellGeometry,
+    cell_size: impl Fn(u8) -> f64 + Sync,
+) -> QualityReport {
     let ni = mesh.n_interior_faces();
     let nc = mesh.n_cells();
     let pts = &mesh.points;
-    let cf = CellFaces::new(mesh);
-    let mut volume = vec![0.0f64; nc];
-    let mut centroid = vec![Vec3::ZERO; nc];
-    volume
-        .par_chunks_mut(CHUNK)
-        .zip(centroid.par_chunks_mut(CHUNK))
-        .enumerate()
-        .for_each(|(k, (vs, cs))| {
-            for (i, (v, x)) in vs.iter_mut().zip(cs.iter_mut()).enumerate() {
-                let c = k * CHUNK + i;
-                let g = cell_volume_centroid(mesh, c as u32, cf.of(c));
-                (*v, *x) = (g.volume, g.centroid);
-            }
-        });
+    let CellGeometry {
+        faces: cf,
+        volume,
+        centroid,
+    } = geometry;
+    assert!(
+        cf.offsets.len() == nc + 1 && volume.len() == nc && centroid.len() == nc,
+        "cell geometry of another mesh"
+    );
 
     let deg_bins: Vec<f64> = (0..18).map(|i| 5.0 * i as f64).collect();
     let skew_bins: Vec<f64> = (0..20).map(|i| 0.05 * i as f64).collect();

@@ -119,8 +119,8 @@ const NONE: u32 = u32::MAX;
 pub fn from_boxes(cubes: &[LatticeCube], unit: f64) -> VolumeMesh {
     let mut dim = [0usize; 3];
     for c in cubes {
-        for a in 0..3 {
-            dim[a] = dim[a].max((c.min[a] + c.edge) as usize);
+        for (d, &m) in dim.iter_mut().zip(&c.min) {
+            *d = (*d).max((m + c.edge) as usize);
         }
     }
     let cidx = |p: [usize; 3]| (p[2] * dim[1] + p[1]) * dim[0] + p[0];

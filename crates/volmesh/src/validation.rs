@@ -22,8 +22,10 @@
 //! vertex for duplicates; edges by lower end point, a slab at a time, for T-junctions); cells,
 //! faces and points are checked in fixed chunks of [`CHUNK`] and sums are taken per chunk, then
 //! over the chunks in order, so the report is identical at any thread count.
+//! [`VolumeMesh::validate_keeping_geometry`] also returns the cell geometry the cell pass
+//! computed ([`CellGeometry`]) for quality.
 
-use crate::geometry::{cell_volume_centroid, polygon_area_centroid, CellFaces};
+use crate::geometry::{cell_volume_centroid_with, polygon_area_centroid, CellFaces, CellGeometry};
 use crate::mesh::VolumeMesh;
 use octocut_surface::{Aabb, Vec3};
 use rayon::prelude::*;
@@ -150,6 +152,26 @@ impl VolumeMesh {
     /// assert!((r.cells_volume - 27.0).abs() < 1e-12); // exact: 3^3
     /// ```
     pub fn validate(&self) -> ValidationReport {
+        self.validate_impl(false).0
+    }
+
+    /// [`VolumeMesh::validate`], also returning the cell geometry the proof computed (the
+    /// cell -> faces CSR, every cell's volume and centroid) for [`crate::quality::quality_with`],
+    /// so that quality does not compute it again. `None` when inconsistent arrays stopped the
+    /// geometric checks. The report is the one `validate` gives.
+    ///
+    /// ```
+    /// use octocut_volmesh::{geometry::CellGeometry, testmesh};
+    /// let m = testmesh::refined_block(2, 1.0, &[[0, 0, 0]]);
+    /// let (r, g) = m.validate_keeping_geometry();
+    /// assert_eq!(r, m.validate());
+    /// assert_eq!(g.unwrap(), CellGeometry::new(&m));
+    /// ```
+    pub fn validate_keeping_geometry(&self) -> (ValidationReport, Option<CellGeometry>) {
+        self.validate_impl(true)
+    }
+
+    fn validate_impl(&self, keep: bool) -> (ValidationReport, Option<CellGeometry>) {
         let mut rep = ValidationReport {
             n_points: self.points.len(),
             n_cells: self.n_cells(),
@@ -163,7 +185,7 @@ impl VolumeMesh {
             problems: Vec::new(),
         };
         if !self.check_arrays(&mut rep.problems) {
-            return rep;
+            return (rep, None);
         }
         self.check_faces(&mut rep.problems);
         if rep.problems.iter().any(|p| {
@@ -172,33 +194,67 @@ impl VolumeMesh {
                 Problem::VertexOutOfRange { .. } | Problem::CellOutOfRange { .. }
             )
         }) {
-            return rep;
+            return (rep, None);
         }
         rep.geometry_checked = true;
         self.check_patches(&mut rep.problems);
         self.check_duplicate_faces(&mut rep.problems);
         self.check_duplicate_points(&mut rep.problems);
 
-        // per cell: closure, volume, directed edges; volumes summed per chunk, chunks in order
+        // T-junctions first (their problems are reported after the cells'): the point bins and
+        // edge slabs are freed before the cell pass keeps its geometry, so the two working sets
+        // are never held at once
+        let mut on_edges = Vec::new();
+        self.check_vertices_on_edges(&mut on_edges);
+
+        // per cell: closure, volume, directed edges; volumes summed per chunk, chunks in order;
+        // each cell's volume and centroid kept when asked
         let cf = CellFaces::new(self);
         let nc = self.n_cells();
-        let per_chunk: Vec<(f64, Vec<Problem>)> = (0..nc.div_ceil(CHUNK))
-            .into_par_iter()
-            .map(|k| {
+        let n_chunks = nc.div_ceil(CHUNK);
+        let (mut volume, mut centroid) = if keep {
+            (vec![0.0f64; nc], vec![Vec3::ZERO; nc])
+        } else {
+            (Vec::new(), Vec::new())
+        };
+        let mut outs: Vec<(&mut [f64], &mut [Vec3])> = if keep {
+            volume
+                .chunks_mut(CHUNK)
+                .zip(centroid.chunks_mut(CHUNK))
+                .collect()
+        } else {
+            (0..n_chunks).map(|_| (&mut [][..], &mut [][..])).collect()
+        };
+        let per_chunk: Vec<(f64, Vec<Problem>)> = outs
+            .par_iter_mut()
+            .enumerate()
+            .map(|(k, (vs, cs))| {
                 let (mut edges, mut probs, mut vol) = (Vec::new(), Vec::new(), 0.0);
+                let mut averages = Vec::new();
                 for c in k * CHUNK..((k + 1) * CHUNK).min(nc) {
-                    vol += self.check_cell(c as u32, cf.of(c), &mut edges, &mut probs);
+                    let (v, x) =
+                        self.check_cell(c as u32, cf.of(c), &mut averages, &mut edges, &mut probs);
+                    vol += v;
+                    if let (Some(vo), Some(xo)) =
+                        (vs.get_mut(c - k * CHUNK), cs.get_mut(c - k * CHUNK))
+                    {
+                        (*vo, *xo) = (v, x);
+                    }
                 }
                 (vol, probs)
             })
             .collect();
-        drop(cf);
+        drop(outs);
         for (v, probs) in per_chunk {
             rep.cells_volume += v;
             rep.problems.extend(probs);
         }
-
-        self.check_vertices_on_edges(&mut rep.problems);
+        rep.problems.extend(on_edges);
+        let geometry = keep.then_some(CellGeometry {
+            faces: cf,
+            volume,
+            centroid,
+        });
 
         // boundary: enclosed volume and patch areas, summed per chunk of faces, chunks in order
         let bbox = Aabb::from_points(self.points.iter().copied());
@@ -229,7 +285,7 @@ impl VolumeMesh {
                 boundary: rep.boundary_volume,
             });
         }
-        rep
+        (rep, geometry)
     }
 
     /// Lengths and offsets; false when the face arrays cannot be read.
@@ -524,19 +580,22 @@ impl VolumeMesh {
     }
 
     /// Closure, volume and directed-edge matching of one cell; pushes its problems to
-    /// `probs` and returns its volume.
+    /// `probs` and returns its volume and centroid (those of
+    /// [`crate::geometry::cell_volume_centroid`]).
     fn check_cell(
         &self,
         c: u32,
         faces: &[u32],
+        averages: &mut Vec<Vec3>,
         edges: &mut Vec<(u64, i32)>,
         probs: &mut Vec<Problem>,
-    ) -> f64 {
+    ) -> (f64, Vec3) {
         if faces.is_empty() {
             probs.push(Problem::EmptyCell { cell: c });
-            return 0.0;
+            // what cell_volume_centroid gives a cell without faces
+            return (0.0, Vec3::ZERO);
         }
-        let g = cell_volume_centroid(self, c, faces);
+        let g = cell_volume_centroid_with(self, c, faces, averages);
         let residual = g.area_sum.length();
         if residual > REL_TOL * g.area_mag {
             probs.push(Problem::OpenCell {
@@ -587,7 +646,7 @@ impl VolumeMesh {
                 });
             }
         }
-        g.volume
+        (g.volume, g.centroid)
     }
 
     /// Geometric T-junction check: points lying strictly inside an edge of some face.
@@ -1148,6 +1207,13 @@ mod tests {
             .unwrap();
         let a = one.install(|| m.validate());
         assert_eq!(a, m.validate());
+        // the kept geometry changes nothing in the report and is CellGeometry::new's, chunk
+        // by chunk, at any thread count
+        let (r, g) = m.validate_keeping_geometry();
+        assert_eq!(r, a);
+        let g = g.unwrap();
+        assert_eq!(g, CellGeometry::new(&m));
+        assert_eq!(one.install(|| m.validate_keeping_geometry().1.unwrap()), g);
         assert!(a.problems.iter().any(|p| matches!(
             p,
             Problem::DuplicatePoint { point, other: 0, .. } if *point as usize == last

@@ -332,6 +332,8 @@ fn decode(doc: &Doc, e: &Elem) -> Result<ReadArray, String> {
         }
         f => return Err(format!("array {name}: unknown format {f}")),
     };
+    // not `is_multiple_of`: it is newer than the workspace's rust-version (1.85)
+    #[allow(clippy::manual_is_multiple_of)]
     if raw.len() % width != 0 {
         return Err(format!(
             "array {name}: {} bytes is not a whole number of values",
@@ -695,7 +697,8 @@ mod tests {
                 let ReadArray::Int(tags) = &b.cell_data["tag"] else {
                     panic!()
                 };
-                for k in 0..b.n_polys() {
+                assert_eq!(tags.len(), b.n_polys());
+                for (k, &tag) in tags.iter().enumerate() {
                     let f = m.face(ni + k);
                     let pts: Vec<_> = b.poly(k).iter().map(|&v| b.points[v as usize]).collect();
                     let want: Vec<_> = f.iter().map(|&v| m.points[v as usize]).collect();
@@ -703,7 +706,7 @@ mod tests {
                     let patch = m.patches.iter().position(|p| {
                         (p.start as usize..(p.start + p.count) as usize).contains(&(ni + k))
                     });
-                    assert_eq!(tags[k], patch.unwrap() as i64);
+                    assert_eq!(tag, patch.unwrap() as i64);
                 }
                 let names: Vec<String> = m.patches.iter().map(|p| p.name.clone()).collect();
                 assert_eq!(b.field_data["tag_names"], ReadArray::Strings(names));

@@ -92,21 +92,29 @@ pub(crate) fn check_writable(mesh: &VolumeMesh) -> Result<(), WriteError> {
     {
         return bad("face offsets not monotone or not ending at the vertex count".into());
     }
-    if let Some(v) = mesh
-        .face_vertices
-        .iter()
-        .find(|&&v| v as usize >= mesh.points.len())
-    {
-        return bad(format!("vertex id {v} out of range"));
+    // the largest id of each array in parallel; only a bad mesh is scanned for the first
+    // offending id
+    let max = |ids: &[u32]| {
+        ids.par_chunks(1 << 16)
+            .map(|c| c.iter().copied().max().unwrap_or(0))
+            .max()
+    };
+    let np = mesh.points.len();
+    if max(&mesh.face_vertices).is_some_and(|m| m as usize >= np) {
+        let v = mesh.face_vertices.iter().find(|&&v| v as usize >= np);
+        return bad(format!("vertex id {} out of range", v.unwrap()));
     }
     let nc = mesh.n_cells();
-    if let Some(c) = mesh
-        .owner
-        .iter()
-        .chain(&mesh.neighbour)
-        .find(|&&c| c as usize >= nc)
+    if max(&mesh.owner)
+        .max(max(&mesh.neighbour))
+        .is_some_and(|m| m as usize >= nc)
     {
-        return bad(format!("cell id {c} out of range"));
+        let c = mesh
+            .owner
+            .iter()
+            .chain(&mesh.neighbour)
+            .find(|&&c| c as usize >= nc);
+        return bad(format!("cell id {} out of range", c.unwrap()));
     }
     if mesh.cell_cut.len() != nc || mesh.cell_region.len() != nc {
         return bad("cell tag arrays of the wrong length".into());
@@ -116,66 +124,58 @@ pub(crate) fn check_writable(mesh: &VolumeMesh) -> Result<(), WriteError> {
 
 /// If the cell with `faces` is an axis-aligned box of six quads, its eight points in VTK
 /// hexahedron order.
+///
+/// One pass over the 24 corner uses: the box of their points, then each use's corner from
+/// which box side it lies on in every axis (a point strictly between the sides means no box);
+/// exactly eight distinct points, one at each corner, and every face on one side of the box.
 pub fn hexahedron(mesh: &VolumeMesh, faces: &[u32]) -> Option<[u32; 8]> {
     if faces.len() != 6 || faces.iter().any(|&f| mesh.face(f as usize).len() != 4) {
         return None;
     }
-    let mut all = [0u32; 24];
-    for (i, &f) in faces.iter().enumerate() {
-        all[4 * i..4 * i + 4].copy_from_slice(mesh.face(f as usize));
-    }
-    all.sort_unstable();
-    let mut ids = [0u32; 8];
-    let mut n = 0;
-    for (i, &v) in all.iter().enumerate() {
-        if i == 0 || v != all[i - 1] {
-            if n == 8 {
-                return None;
-            }
-            ids[n] = v;
-            n += 1;
-        }
-    }
-    if n != 8 {
-        return None;
-    }
     let p = |v: u32| mesh.points[v as usize];
-    let (mut lo, mut hi) = (p(ids[0]), p(ids[0]));
-    for &v in &ids[1..] {
-        lo = lo.min(p(v));
-        hi = hi.max(p(v));
+    let first = p(mesh.face(faces[0] as usize)[0]);
+    let (mut lo, mut hi) = (first, first);
+    for &f in faces {
+        for &v in mesh.face(f as usize) {
+            lo = lo.min(p(v));
+            hi = hi.max(p(v));
+        }
     }
     if !(lo.x < hi.x && lo.y < hi.y && lo.z < hi.z) {
         return None;
     }
     let mut corner = [u32::MAX; 8];
-    for &v in &ids {
-        let q = p(v);
-        let mut bits = [0usize; 3];
-        for a in 0..3 {
-            bits[a] = if q[a] == lo[a] {
-                0
-            } else if q[a] == hi[a] {
-                1
-            } else {
-                return None;
-            };
-        }
-        // VTK order: (0,0,0) (1,0,0) (1,1,0) (0,1,0), then the same at z = 1
-        let k = [0, 1, 3, 2][bits[0] + 2 * bits[1]] + 4 * bits[2];
-        if corner[k] != u32::MAX {
-            return None;
-        }
-        corner[k] = v;
-    }
-    // each face must lie on one side of the box
     for &f in faces {
-        let vs = mesh.face(f as usize);
-        let on_side = (0..3)
-            .any(|a| vs.iter().all(|&v| p(v)[a] == lo[a]) || vs.iter().all(|&v| p(v)[a] == hi[a]));
-        if !on_side {
-            return None;
+        // sides shared by all the face's points: bit a of `at_hi` (`at_lo`) when every point
+        // has coordinate a at the high (low) side
+        let (mut at_hi, mut at_lo) = (7u8, 7u8);
+        for &v in mesh.face(f as usize) {
+            let q = p(v);
+            let mut bits = 0u8;
+            for a in 0..3 {
+                if q[a] == hi[a] {
+                    bits |= 1 << a;
+                } else if q[a] != lo[a] {
+                    return None;
+                }
+            }
+            // VTK order: (0,0,0) (1,0,0) (1,1,0) (0,1,0), then the same at z = 1
+            let k = [0, 1, 3, 2][(bits & 3) as usize] + 4 * (bits >> 2) as usize;
+            if corner[k] == u32::MAX {
+                corner[k] = v;
+            } else if corner[k] != v {
+                return None; // two points at one corner
+            }
+            at_hi &= bits;
+            at_lo &= !bits & 7;
         }
+        if at_hi == 0 && at_lo == 0 {
+            return None; // the face leaves the box sides
+        }
+    }
+    // all eight corners used, each by one point: exactly eight distinct points
+    if corner.contains(&u32::MAX) {
+        return None;
     }
     Some(corner)
 }
@@ -321,14 +321,14 @@ fn write_vtu_streamed(
         .into_par_iter()
         .enumerate()
         .for_each(|(k, (t, cl, sl))| {
-            let mut seen = Vec::new();
+            let (mut seen, mut table) = (Vec::new(), Vec::new());
             for i in 0..t.len() {
                 let c = k * CHUNK + i;
                 let faces = cf.of(c);
                 if hexahedron(mesh, faces).is_some() {
                     (t[i], cl[i], sl[i]) = (VTK_HEXAHEDRON, 8, 0);
                 } else {
-                    distinct_points(mesh, c, faces, &mut seen);
+                    distinct_points(mesh, c, faces, &mut seen, &mut table);
                     let s: usize = faces.iter().map(|&f| 1 + mesh.face(f as usize).len()).sum();
                     (t[i], cl[i], sl[i]) = (VTK_POLYHEDRON, seen.len() as u32, 1 + s as u32);
                 }
@@ -376,14 +376,14 @@ fn write_vtu_streamed(
         writeln!(w, "      <Cells>")?;
         let connectivity = StreamArray::from_values("connectivity", 1, kind, n_conn, |w| {
             put_par(w, nc, CHUNK, |cells, b| {
-                let mut seen = Vec::new();
+                let (mut seen, mut table) = (Vec::new(), Vec::new());
                 for c in cells {
                     let faces = cf.of(c);
                     if types[c] == VTK_HEXAHEDRON {
                         let h = hexahedron(mesh, faces).expect("classified as a hexahedron");
                         h.iter().for_each(|&v| le(b, v as i64));
                     } else {
-                        distinct_points(mesh, c, faces, &mut seen);
+                        distinct_points(mesh, c, faces, &mut seen, &mut table);
                         seen.iter().for_each(|&v| le(b, v as i64));
                     }
                 }
@@ -496,16 +496,40 @@ fn ids_max(points: usize, n_conn: usize, n_stream: usize) -> usize {
     points.max(n_conn).max(n_stream)
 }
 
-/// The distinct points of cell `c`'s outward face streams, in order of first use.
-fn distinct_points(mesh: &VolumeMesh, c: usize, faces: &[u32], seen: &mut Vec<u32>) {
+/// The distinct points of cell `c`'s outward face streams, in order of first use (`table` is
+/// scratch: an open-addressing set of the points seen, at least twice the uses in size, so a
+/// cell costs time linear in its point uses).
+fn distinct_points(
+    mesh: &VolumeMesh,
+    c: usize,
+    faces: &[u32],
+    seen: &mut Vec<u32>,
+    table: &mut Vec<u32>,
+) {
     seen.clear();
+    let uses: usize = faces.iter().map(|&f| mesh.face(f as usize).len()).sum();
+    let size = (2 * uses).next_power_of_two().max(16);
+    table.clear();
+    table.resize(size, EMPTY);
+    let mask = size - 1;
+    let mut push = |v: u32| {
+        // Fibonacci hashing (Knuth, TAOCP vol. 3, 6.4): the high bits of v times 2^32/phi
+        let mut h = ((v as u64).wrapping_mul(0x9e37_79b9_7f4a_7c15) >> 32) as usize & mask;
+        loop {
+            let t = table[h];
+            if t == v {
+                return;
+            }
+            if t == EMPTY {
+                table[h] = v;
+                seen.push(v);
+                return;
+            }
+            h = (h + 1) & mask;
+        }
+    };
     for &f in faces {
         let vs = mesh.face(f as usize);
-        let mut push = |v: u32| {
-            if !seen.contains(&v) {
-                seen.push(v);
-            }
-        };
         if mesh.owner[f as usize] == c as u32 {
             vs.iter().for_each(|&v| push(v));
         } else {
@@ -513,6 +537,10 @@ fn distinct_points(mesh: &VolumeMesh, c: usize, faces: &[u32], seen: &mut Vec<u3
         }
     }
 }
+
+/// An empty slot of [`distinct_points`]' table (no point has this id: ids are below the point
+/// count, which is at most `u32::MAX`).
+const EMPTY: u32 = u32::MAX;
 
 #[cfg(test)]
 mod tests {
@@ -552,8 +580,8 @@ mod tests {
             [1., 1., 1.],
             [0., 1., 1.],
         ];
-        for k in 0..8 {
-            assert_eq!(m.points[c.connectivity[k] as usize].to_array(), expect[k]);
+        for (&v, want) in c.connectivity.iter().zip(&expect) {
+            assert_eq!(m.points[v as usize].to_array(), *want);
         }
         // one refined cell: 8 fine hexahedra, the far coarse corner cell is a hexahedron, the
         // six coarse cells touching the refined one by a side or an edge carry split faces or
@@ -563,6 +591,107 @@ mod tests {
         let hex = c.types.iter().filter(|&&t| t == VTK_HEXAHEDRON).count();
         assert_eq!((hex, c.types.len() - hex), (9, 6));
         assert_eq!(c.faceoffsets.iter().filter(|&&o| o == -1).count(), 9);
+    }
+
+    /// The hexahedron test as first written (sort the 24 uses, eight distinct points, corners,
+    /// faces on sides): the reference the one-pass test must agree with on every cell.
+    fn hexahedron_former(mesh: &VolumeMesh, faces: &[u32]) -> Option<[u32; 8]> {
+        if faces.len() != 6 || faces.iter().any(|&f| mesh.face(f as usize).len() != 4) {
+            return None;
+        }
+        let mut all = [0u32; 24];
+        for (i, &f) in faces.iter().enumerate() {
+            all[4 * i..4 * i + 4].copy_from_slice(mesh.face(f as usize));
+        }
+        all.sort_unstable();
+        let mut ids = [0u32; 8];
+        let mut n = 0;
+        for (i, &v) in all.iter().enumerate() {
+            if i == 0 || v != all[i - 1] {
+                if n == 8 {
+                    return None;
+                }
+                ids[n] = v;
+                n += 1;
+            }
+        }
+        if n != 8 {
+            return None;
+        }
+        let p = |v: u32| mesh.points[v as usize];
+        let (mut lo, mut hi) = (p(ids[0]), p(ids[0]));
+        for &v in &ids[1..] {
+            lo = lo.min(p(v));
+            hi = hi.max(p(v));
+        }
+        if !(lo.x < hi.x && lo.y < hi.y && lo.z < hi.z) {
+            return None;
+        }
+        let mut corner = [u32::MAX; 8];
+        for &v in &ids {
+            let q = p(v);
+            let mut bits = [0usize; 3];
+            for a in 0..3 {
+                bits[a] = if q[a] == lo[a] {
+                    0
+                } else if q[a] == hi[a] {
+                    1
+                } else {
+                    return None;
+                };
+            }
+            let k = [0, 1, 3, 2][bits[0] + 2 * bits[1]] + 4 * bits[2];
+            if corner[k] != u32::MAX {
+                return None;
+            }
+            corner[k] = v;
+        }
+        for &f in faces {
+            let vs = mesh.face(f as usize);
+            let on_side = (0..3).any(|a| {
+                vs.iter().all(|&v| p(v)[a] == lo[a]) || vs.iter().all(|&v| p(v)[a] == hi[a])
+            });
+            if !on_side {
+                return None;
+            }
+        }
+        Some(corner)
+    }
+
+    #[test]
+    fn one_pass_hexahedron_test_agrees_with_the_former_one() {
+        // hexahedra and polyhedra of a refined block, the same with one point moved off its
+        // corner (a cell no longer a box), with a face's vertices replaced by another cell's
+        // (a face off the box sides), and the clipped cube
+        let mut moved = testmesh::refined_block(3, 1.0, &[[1, 1, 1]]);
+        moved.points[0].x += 0.25;
+        let mut swapped = testmesh::block(2, 1.0);
+        let f = swapped.n_faces() - 1;
+        let a = swapped.face_offsets[f] as usize;
+        swapped.face_vertices[a] = swapped.face(0)[0];
+        let mut flat = testmesh::block(1, 1.0);
+        for p in flat.points.iter_mut() {
+            p.z = 0.0; // a degenerate box
+        }
+        let (mut hexes, mut others) = (0, 0);
+        for m in [
+            testmesh::refined_block(3, 1.0, &[[1, 1, 1], [0, 0, 0]]),
+            moved,
+            swapped,
+            flat,
+            testmesh::clipped_cube(),
+        ] {
+            let cf = CellFaces::new(&m);
+            for c in 0..m.n_cells() {
+                let h = hexahedron(&m, cf.of(c));
+                assert_eq!(h, hexahedron_former(&m, cf.of(c)), "cell {c}");
+                hexes += h.is_some() as usize;
+                others += h.is_none() as usize;
+            }
+        }
+        // both answers were given many times (the cells next to refined ones, the moved and
+        // swapped cells, the flat box and the clipped cube are no hexahedra)
+        assert!(hexes > 20 && others > 20, "{hexes} {others}");
     }
 
     #[test]
