@@ -2,6 +2,7 @@
 //!
 //! This facade wires the stages: surface intake, octree, cut cells, volume mesh, writers.
 
+pub mod hugepage;
 pub mod output;
 pub mod pipeline;
 pub mod report;
