@@ -267,10 +267,26 @@ pub fn cut_cells_with_regions(
         let face = topo.faces[f as usize];
         touched.is(face.e) || (!face.is_boundary() && touched.is(face.n))
     };
-    let keys: Vec<(u64, u32)> = (0..topo.faces.len() as u32)
-        .into_par_iter()
-        .flat_map_iter(|f| face_keys(f, touches(f)))
-        .collect();
+    // per run of faces, sorted and deduplicated (the smallest code of a key kept, as the
+    // global sort and dedup in `EdgeHits::query` keep it): neighbouring faces share most
+    // edges, so the list is about a third of the raw one (memory at the peak of the stage)
+    let keys: Vec<(u64, u32)> = {
+        const RUN: usize = 2048;
+        let nf = topo.faces.len();
+        let parts: Vec<Vec<(u64, u32)>> = (0..nf.div_ceil(RUN))
+            .into_par_iter()
+            .map(|r| {
+                let (f0, f1) = ((r * RUN) as u32, ((r + 1) * RUN).min(nf) as u32);
+                let mut v: Vec<(u64, u32)> =
+                    (f0..f1).flat_map(|f| face_keys(f, touches(f))).collect();
+                v.sort_unstable();
+                v.dedup_by_key(|x| x.0);
+                v.shrink_to_fit();
+                v
+            })
+            .collect();
+        concat::concat(&parts)
+    };
     tmark("edgekeys");
     if std::env::var_os("OCTOCUT_CUT_TIMING").is_some() {
         let may = keys.iter().filter(|k| k.1 != UNCROSSED).count();

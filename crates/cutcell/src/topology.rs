@@ -239,24 +239,33 @@ impl Vertices {
             let pack = |s: usize| grid_key(corner(s / 8, s % 8)) << 32 | s as u128;
             group_slots(n, pack, |x| x >> 32, |x| x as u32 as usize)
         };
-        let (slot_group, ng) = slot_group;
+        let (slot_group, first) = slot_group;
         crate::tmark("topo.sort");
-        // point ids by first appearance
-        let ng = ng as usize;
-        let mut group_id = vec![u32::MAX; ng];
-        let mut grid = Vec::with_capacity(ng);
-        let mut corners = Vec::with_capacity(leaves.len());
-        for l in 0..leaves.len() {
-            let c: [u32; 8] = std::array::from_fn(|i| {
-                let g = slot_group[l * 8 + i] as usize;
-                if group_id[g] == u32::MAX {
-                    group_id[g] = grid.len() as u32;
-                    grid.push(corner(l, i));
-                }
-                group_id[g]
-            });
-            corners.push(c);
+        // point ids by first appearance: groups ordered by their first slot (the smallest slot
+        // holding them); sorted (first slot, group) pairs give each group its id
+        let ng = first.len();
+        let mut by_first: Vec<u64> = first
+            .par_iter()
+            .enumerate()
+            .map(|(g, &s)| (s as u64) << 32 | g as u64)
+            .collect();
+        by_first.par_sort_unstable();
+        let grid: Vec<[u32; 3]> = by_first
+            .par_iter()
+            .map(|&x| {
+                let s = (x >> 32) as usize;
+                corner(s / 8, s % 8)
+            })
+            .collect();
+        let mut group_id = vec![0u32; ng];
+        for (p, &x) in by_first.iter().enumerate() {
+            group_id[x as u32 as usize] = p as u32;
         }
+        drop((by_first, first));
+        let corners: Vec<[u32; 8]> = slot_group
+            .par_chunks(8)
+            .map(|c| std::array::from_fn(|i| group_id[c[i] as usize]))
+            .collect();
         drop(slot_group);
         crate::tmark("topo.ids");
         // groups are in (z, y, x) order: that is the x-axis order
@@ -305,8 +314,9 @@ impl Vertices {
     }
 }
 
-/// The group (distinct key, numbered in key order) of each of the `n` slots, and the number of
-/// groups. `pack(s)` is slot `s`'s (key, slot) value, `key` and `slot` take it apart.
+/// The group (distinct key, numbered in key order) of each of the `n` slots, and the first
+/// (smallest) slot of each group. `pack(s)` is slot `s`'s (key, slot) value, `key` and `slot`
+/// take it apart.
 ///
 /// Two rounds of sorting: each block of [`SLOT_BLOCK`] consecutive slots is sorted alone (in
 /// cache) and keeps one representative per key, its first slot; then the representatives of
@@ -317,7 +327,7 @@ fn group_slots<T: Ord + Copy + Send + Sync>(
     pack: impl Fn(usize) -> T + Sync + Send,
     key: impl Fn(T) -> T + Sync + Send,
     slot: impl Fn(T) -> usize + Sync + Send,
-) -> (Vec<u32>, u32) {
+) -> (Vec<u32>, Vec<u32>) {
     let nb = n.div_ceil(SLOT_BLOCK);
     // per block: representatives in key order, and each slot's representative index
     let blocks: Vec<(Vec<T>, Vec<u32>)> = (0..nb)
@@ -347,9 +357,12 @@ fn group_slots<T: Ord + Copy + Send + Sync>(
     let mut rep_group: Vec<Vec<u32>> = blocks.iter().map(|b| vec![0; b.0.len()]).collect();
     let mut next = vec![0u32; nb];
     let mut ng = 0u32;
+    // (key, slot) order: the first value of a key holds its smallest slot
+    let mut first = Vec::new();
     for (i, &x) in all.iter().enumerate() {
         if i == 0 || key(all[i - 1]) != key(x) {
             ng += 1;
+            first.push(slot(x) as u32);
         }
         let b = slot(x) / SLOT_BLOCK;
         rep_group[b][next[b] as usize] = ng - 1;
@@ -365,7 +378,7 @@ fn group_slots<T: Ord + Copy + Send + Sync>(
                 *x = rg[r as usize];
             }
         });
-    (group, ng)
+    (group, first)
 }
 
 /// Slots sorted together in the first round of [`group_slots`] (a multiple of 8: whole leaves).
