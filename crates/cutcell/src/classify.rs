@@ -391,8 +391,8 @@ pub(crate) fn classify(
     // runs of untouched leaves
     let mut uf = UnionFind::new(leaves.len());
     for f in &topo.faces {
-        if !f.is_boundary() && !touched.is(f.e) && !touched.is(f.n) {
-            uf.union(f.e, f.n);
+        if !f.is_boundary() && !touched.is(f.e()) && !touched.is(f.n) {
+            uf.union(f.e(), f.n);
         }
     }
     const UNKNOWN: u8 = 2;

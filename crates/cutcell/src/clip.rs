@@ -668,6 +668,7 @@ impl ClipCtx<'_> {
                 out
             })
             .collect();
+        crate::tmark("clip.faces");
         let mut c = Clip {
             face_poly: Vec::with_capacity(nf as usize + 1),
             poly_off: vec![0],

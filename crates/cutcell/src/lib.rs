@@ -255,17 +255,17 @@ pub fn cut_cells_with_regions(
         let n = if need { pts.len() } else { 0 };
         let face = topo.faces[f as usize];
         let (t, g) = (&touched, &gpos);
-        let probe = (face.is_boundary() || t.is(face.n)).then_some(face.e);
+        let probe = (face.is_boundary() || t.is(face.n)).then_some(face.e());
         (0..n).map(move |i| {
             let (p, q) = (pts[i], pts[(i + 1) % n]);
             let may = probe.is_some_and(|l| t.may_cross(surf, l, g(p), g(q)));
             // the edge lies in leaf e's closed box: its triangle list holds every candidate
-            (edge_key(p, q), if may { face.e + 1 } else { UNCROSSED })
+            (edge_key(p, q), if may { face.e() + 1 } else { UNCROSSED })
         })
     };
     let touches = |f: u32| {
         let face = topo.faces[f as usize];
-        touched.is(face.e) || (!face.is_boundary() && touched.is(face.n))
+        touched.is(face.e()) || (!face.is_boundary() && touched.is(face.n))
     };
     // per run of faces, sorted and deduplicated (the smallest code of a key kept, as the
     // global sort and dedup in `EdgeHits::query` keep it): neighbouring faces share most
@@ -316,7 +316,7 @@ pub fn cut_cells_with_regions(
         .collect();
     let mut mix = vec![0u8; leaves.len()];
     for (f, face) in topo.faces.iter().enumerate() {
-        mix[face.e as usize] |= face_mix[f];
+        mix[face.e() as usize] |= face_mix[f];
         if !face.is_boundary() {
             mix[face.n as usize] |= face_mix[f];
         }
@@ -374,7 +374,7 @@ pub fn cut_cells_with_regions(
     if !clip.poke_plane.is_empty() {
         for (f, face) in topo.faces.iter().enumerate() {
             if !clip.chords_of(f as u32).is_empty() {
-                for l in [face.e, face.n] {
+                for l in [face.e(), face.n] {
                     if (l as usize) < leaves.len() && status[l as usize] != CUT {
                         status[l as usize] = CUT;
                     }
@@ -578,8 +578,8 @@ pub fn cut_cells_with_regions(
                     let face = topo.faces[f];
                     for p in clip.polys_of(f as u32) {
                         let i = (p - p0) as usize;
-                        if status[face.e as usize] == FLUID {
-                            pe[i] = leaf_cell[face.e as usize];
+                        if status[face.e() as usize] == FLUID {
+                            pe[i] = leaf_cell[face.e() as usize];
                         }
                         if face.is_boundary() {
                             pk[i] = face.n - topology::SIDE_BASE;

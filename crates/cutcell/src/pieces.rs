@@ -163,7 +163,7 @@ impl CellCtx<'_> {
         s.polys.clear();
         s.chords.clear();
         for &f in topo.faces_of(leaf) {
-            let is_e = topo.faces[f as usize].e == leaf;
+            let is_e = topo.faces[f as usize].e() == leaf;
             let base = s.polys.len() as u32;
             let pr = clip.polys_of(f);
             for p in pr.clone() {

@@ -17,21 +17,41 @@ use rayon::prelude::*;
 pub(crate) const SIDE_BASE: u32 = u32::MAX - 5;
 
 /// One elementary face: the face of leaf `e` across direction `dir` (0 -x, 1 +x, .. 5 +z).
+/// Packed in 8 bytes: `e` in the low 29 bits of the first word (fewer than 2^29 leaves, see
+/// the module doc), `dir` in its top 3 bits.
 #[derive(Clone, Copy, Debug, Default)]
 pub(crate) struct EFace {
-    pub e: u32,
+    e_dir: u32,
     pub n: u32,
-    pub dir: u8,
 }
 
+const E_BITS: u32 = 29;
+
 impl EFace {
+    #[inline]
+    pub fn new(e: u32, n: u32, dir: u8) -> EFace {
+        debug_assert!(e < 1 << E_BITS && dir < 6);
+        EFace {
+            e_dir: e | (dir as u32) << E_BITS,
+            n,
+        }
+    }
+    /// The enumerating leaf.
+    #[inline]
+    pub fn e(&self) -> u32 {
+        self.e_dir & ((1 << E_BITS) - 1)
+    }
+    #[inline]
+    pub fn dir(&self) -> u8 {
+        (self.e_dir >> E_BITS) as u8
+    }
     #[inline]
     pub fn is_boundary(&self) -> bool {
         self.n >= SIDE_BASE
     }
     #[inline]
     pub fn axis(&self) -> usize {
-        (self.dir / 2) as usize
+        (self.dir() / 2) as usize
     }
 }
 
@@ -129,11 +149,7 @@ impl Topology {
                         };
                         let before = pts.len();
                         face_polygon(&lines, k, &corners[l], d, &mut pts);
-                        faces.push(EFace {
-                            e: l as u32,
-                            n,
-                            dir: d,
-                        });
+                        faces.push(EFace::new(l as u32, n, d));
                         lens.push((pts.len() - before) as u32);
                     }
                 }
@@ -161,7 +177,7 @@ impl Topology {
         // leaf -> faces
         let mut leaf_off = vec![0u32; leaves.len() + 1];
         for f in &faces {
-            leaf_off[f.e as usize + 1] += 1;
+            leaf_off[f.e() as usize + 1] += 1;
             if !f.is_boundary() {
                 leaf_off[f.n as usize + 1] += 1;
             }
@@ -172,8 +188,8 @@ impl Topology {
         let mut fill = leaf_off.clone();
         let mut leaf_faces = vec![0u32; leaf_off[leaves.len()] as usize];
         for (i, f) in faces.iter().enumerate() {
-            leaf_faces[fill[f.e as usize] as usize] = i as u32;
-            fill[f.e as usize] += 1;
+            leaf_faces[fill[f.e() as usize] as usize] = i as u32;
+            fill[f.e() as usize] += 1;
             if !f.is_boundary() {
                 leaf_faces[fill[f.n as usize] as usize] = i as u32;
                 fill[f.n as usize] += 1;
@@ -449,10 +465,10 @@ mod tests {
         let leaves = tree.leaves();
         for (f, face) in t.faces.iter().enumerate() {
             let pts = t.face(f as u32);
-            let k = leaves[face.e as usize];
+            let k = leaves[face.e() as usize];
             let (a, e) = (k.anchor(), k.edge());
             let ax = face.axis();
-            let plane = a[ax] + if face.dir % 2 == 1 { e } else { 0 };
+            let plane = a[ax] + if face.dir() % 2 == 1 { e } else { 0 };
             let on_boundary = |g: [u32; 3]| {
                 let (u, v) = ((ax + 1) % 3, (ax + 2) % 3);
                 g[ax] == plane
@@ -479,7 +495,7 @@ mod tests {
                 .faces_of(l)
                 .iter()
                 .map(|&f| {
-                    let fe = leaves[t.faces[f as usize].e as usize].edge() as u64;
+                    let fe = leaves[t.faces[f as usize].e() as usize].edge() as u64;
                     fe * fe
                 })
                 .sum();
