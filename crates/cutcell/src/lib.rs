@@ -387,6 +387,12 @@ pub fn cut_cells_with_regions(
     report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
     tmark("clip");
+    // face lists of the leaves closed below or checked for warnings
+    topo.build_leaf_faces(leaves.len(), |l| {
+        let s = status[l as usize];
+        s == CUT || (s != SOLID && touched.is(l))
+    });
+    tmark("leaffaces");
     let pts = Points {
         domain,
         grid: &topo.grid,

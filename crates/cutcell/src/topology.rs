@@ -174,36 +174,48 @@ impl Topology {
         drop(face_parts);
         crate::tmark("topo.concat");
         crate::tmark("topo.faces");
-        // leaf -> faces
-        let mut leaf_off = vec![0u32; leaves.len() + 1];
-        for f in &faces {
-            leaf_off[f.e() as usize + 1] += 1;
-            if !f.is_boundary() {
-                leaf_off[f.n as usize + 1] += 1;
-            }
-        }
-        for i in 0..leaves.len() {
-            leaf_off[i + 1] += leaf_off[i];
-        }
-        let mut fill = leaf_off.clone();
-        let mut leaf_faces = vec![0u32; leaf_off[leaves.len()] as usize];
-        for (i, f) in faces.iter().enumerate() {
-            leaf_faces[fill[f.e() as usize] as usize] = i as u32;
-            fill[f.e() as usize] += 1;
-            if !f.is_boundary() {
-                leaf_faces[fill[f.n as usize] as usize] = i as u32;
-                fill[f.n as usize] += 1;
-            }
-        }
         Topology {
             grid,
             corners,
             faces,
             face_off,
             face_pts,
-            leaf_off,
-            leaf_faces,
+            leaf_off: Vec::new(),
+            leaf_faces: Vec::new(),
         }
+    }
+
+    /// Fills the face lists of the leaves for which `need` holds (each in increasing face
+    /// order); the others get empty lists. Built after the classification, for the leaves
+    /// that are closed, so that the lists of all leaves never coexist with the clip's arrays
+    /// (peak memory).
+    pub fn build_leaf_faces(&mut self, n_leaves: usize, need: impl Fn(u32) -> bool + Sync) {
+        let faces = &self.faces;
+        // (leaf, face) of every needed side, in face order
+        let mut leaf_off = vec![0u32; n_leaves + 1];
+        for f in faces {
+            if need(f.e()) {
+                leaf_off[f.e() as usize + 1] += 1;
+            }
+            if !f.is_boundary() && need(f.n) {
+                leaf_off[f.n as usize + 1] += 1;
+            }
+        }
+        for i in 0..n_leaves {
+            leaf_off[i + 1] += leaf_off[i];
+        }
+        let mut fill = leaf_off.clone();
+        let mut leaf_faces = vec![0u32; leaf_off[n_leaves] as usize];
+        for (i, f) in faces.iter().enumerate() {
+            for l in [f.e(), f.n] {
+                if (l == f.e() || !f.is_boundary()) && need(l) {
+                    leaf_faces[fill[l as usize] as usize] = i as u32;
+                    fill[l as usize] += 1;
+                }
+            }
+        }
+        self.leaf_off = leaf_off;
+        self.leaf_faces = leaf_faces;
     }
 }
 
@@ -457,7 +469,8 @@ mod tests {
         let index = SurfaceIndex::new(icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 1));
         let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
         let tree = refined_tree(d, &index, 4);
-        let t = Topology::build(&tree);
+        let mut t = Topology::build(&tree);
+        t.build_leaf_faces(tree.leaves().len(), |_| true);
         let mut all: Vec<[u32; 3]> = t.grid.clone();
         all.sort_unstable();
         all.dedup();
