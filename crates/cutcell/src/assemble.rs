@@ -102,7 +102,7 @@ pub(crate) struct AssembleInput<'a> {
     pub side_names: &'a [String; 6],
 }
 
-pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
+pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
     let f = &inp.faces;
     // interior (owner, neighbour, raw face, reversed); boundary (kind, then patch, owner, raw face)
     let mut interior: Vec<(u32, u32, u32, bool)> = (0..f.len() as u32)
@@ -176,6 +176,14 @@ pub(crate) fn assemble(inp: AssembleInput) -> VolumeMesh {
     }
     drop(interior);
     drop(boundary);
+    // only the vertex lists are read from here on
+    let f = {
+        let raw = &mut inp.faces;
+        raw.a = Vec::new();
+        raw.b = Vec::new();
+        raw.kind = Vec::new();
+        &inp.faces
+    };
     // vertex lists copied in parallel, a run of faces at a time (each run's vertices are one
     // contiguous range)
     const RUN: usize = 4096;

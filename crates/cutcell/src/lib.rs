@@ -824,6 +824,8 @@ pub fn cut_cells_with_regions(
         fraction: opts.small_cell_fraction,
     });
     report.merged_cells = merged.merged;
+    // not needed past the merge (memory at the assembly, the stage's late peak)
+    drop((iface, cell_full));
     tmark("merge");
     let mut uf = merged.uf;
     if !merged.tiny.is_empty() {
