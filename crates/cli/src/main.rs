@@ -53,6 +53,7 @@ struct CheckArgs {
 static ALLOC: octocut::hugepage::HugePageAlloc = octocut::hugepage::HugePageAlloc;
 
 fn main() -> ExitCode {
+    octocut::hugepage::fixed_mmap_threshold();
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Check(args) => check(&args),

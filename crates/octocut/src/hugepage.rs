@@ -25,7 +25,13 @@
 //! }
 //! ```
 //! A program opts in with `#[global_allocator] static A: HugePageAlloc = HugePageAlloc;`
-//! (the `octocut` command does).
+//! (the `octocut` command does), and may call [`fixed_mmap_threshold`] first.
+//!
+//! [`fixed_mmap_threshold`] pins glibc's mmap threshold at [`LARGE`] (`mallopt(3)`,
+//! `M_MMAP_THRESHOLD`): glibc otherwise raises the threshold to the size of each large block
+//! freed (up to 32 MiB), after which blocks of that size come from the heap arenas and stay
+//! resident when freed. Pinned, every large block is its own mapping, returned to the system
+//! when freed (measured on the 2M-cell case: cut-stage peak about 1.40 -> 1.31-1.37 GB, same time).
 
 use std::alloc::{GlobalAlloc, Layout, System};
 
@@ -44,6 +50,24 @@ const HUGE: usize = 2 << 20;
 /// ```
 #[derive(Clone, Copy, Debug, Default)]
 pub struct HugePageAlloc;
+
+/// Pins glibc's mmap threshold at [`LARGE`] (see the module doc). Returns whether the C
+/// library took the setting (always `false` on other C libraries and systems).
+///
+/// ```
+/// let _ = octocut::hugepage::fixed_mmap_threshold();
+/// ```
+pub fn fixed_mmap_threshold() -> bool {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    {
+        // SAFETY: mallopt only changes the allocator's tuning parameters
+        unsafe { libc::mallopt(libc::M_MMAP_THRESHOLD, LARGE as libc::c_int) == 1 }
+    }
+    #[cfg(not(all(target_os = "linux", target_env = "gnu")))]
+    {
+        false
+    }
+}
 
 /// Marks the whole huge pages inside `[p, p + n)`.
 fn advise(p: *mut u8, n: usize) {
@@ -142,6 +166,15 @@ mod tests {
             assert!((0..layout.size()).all(|i| *q.add(i) == (i % 251) as u8));
             HugePageAlloc.dealloc(q, Layout::from_size_align(32 << 20, 64).unwrap());
         }
+    }
+
+    #[test]
+    fn the_mmap_threshold_is_taken_on_glibc() {
+        // mallopt(3): returns 1 on success
+        assert_eq!(
+            fixed_mmap_threshold(),
+            cfg!(all(target_os = "linux", target_env = "gnu"))
+        );
     }
 
     #[test]
