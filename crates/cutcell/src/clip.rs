@@ -658,7 +658,7 @@ impl ClipCtx<'_> {
         let pk = self.find_pokes(pierce_base);
         let ids: Vec<u32> = (0..nf).collect();
         let chunks: Vec<Chunk> = ids
-            .par_chunks(2048)
+            .par_chunks(crate::util::gather_chunk(nf as usize, 2048, 1 << 19))
             .map(|fs| {
                 let mut out = Chunk::default();
                 let (mut runs, mut aug) = (Vec::new(), Vec::new());

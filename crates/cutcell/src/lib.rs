@@ -413,7 +413,7 @@ pub fn cut_cells_with_regions(
         cos_feature,
     };
     let mut chunks: Vec<CutChunk> = cut_leaves
-        .par_chunks(64)
+        .par_chunks(util::gather_chunk(cut_leaves.len(), 64, 1 << 14))
         .map_init(Scratch::default, |s, ls| {
             let mut out = CutChunk::default();
             for &l in ls {

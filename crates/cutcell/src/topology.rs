@@ -108,10 +108,10 @@ impl Topology {
         crate::tmark("topo.verts");
         // faces, chunk-parallel, concatenated in leaf order
         let ext = tree.domain.grid_extent();
-        const CHUNK: usize = 512;
+        let chunk = crate::util::gather_chunk(leaves.len(), 512, 1 << 17);
         let chunks: Vec<(Vec<EFace>, Vec<u32>, Vec<u32>)> = (0..leaves.len())
             .collect::<Vec<_>>()
-            .par_chunks(CHUNK)
+            .par_chunks(chunk)
             .map(|ids| {
                 let mut faces = Vec::with_capacity(ids.len() * 3);
                 let mut lens = Vec::with_capacity(ids.len() * 3);
@@ -156,6 +156,7 @@ impl Topology {
                 (faces, lens, pts)
             })
             .collect();
+        drop(lines);
         crate::tmark("topo.enum");
         let (face_parts, lens, pts): (Vec<_>, Vec<_>, Vec<_>) =
             chunks

@@ -53,3 +53,11 @@ mod tests {
         assert_eq!(u.find(0), 0);
     }
 }
+
+/// Items per task of a chunked parallel map whose per-chunk outputs are gathered afterwards:
+/// about 8 tasks per thread, between `min` and `max`. Large chunks keep each output vector
+/// large enough to be its own mapping, returned to the system when the gather frees it (peak
+/// memory); the outputs never depend on the chunk size.
+pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
+    (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
+}
