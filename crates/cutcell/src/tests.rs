@@ -83,7 +83,9 @@ fn thread_count_does_not_change_output() {
     let s = icosphere(Vec3::new(0.51, 0.48, 0.5), 0.3, 2);
     let index = SurfaceIndex::new(s);
     let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
-    let tree = refined_tree(d, &index, 4);
+    // level 5: enough leaves and faces that the gathered chunks differ in size between the
+    // thread counts (`util::gather_chunk`)
+    let tree = refined_tree(d, &index, 5);
     let run = |n| {
         rayon::ThreadPoolBuilder::new()
             .num_threads(n)
@@ -91,16 +93,28 @@ fn thread_count_does_not_change_output() {
             .unwrap()
             .install(|| cut_cells(&tree, &index, &CutOptions::default()).unwrap())
     };
-    let (a, b) = (run(1), run(2));
-    assert_eq!(a.mesh.points.len(), b.mesh.points.len());
-    assert!(a
-        .mesh
-        .points
-        .iter()
-        .zip(&b.mesh.points)
-        .all(|(p, q)| p.to_array().map(f64::to_bits) == q.to_array().map(f64::to_bits)));
-    assert_eq!(a.mesh.face_vertices, b.mesh.face_vertices);
-    assert_eq!(a.mesh.owner, b.mesh.owner);
+    // the topology's leaf chunks do differ between 1 and 3 threads here
+    let chunk = |n| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(n)
+            .build()
+            .unwrap()
+            .install(|| crate::util::gather_chunk(tree.leaves().len(), 512, 1 << 17))
+    };
+    assert!(chunk(1) > chunk(3), "{} leaves", tree.leaves().len());
+    let one = run(1);
+    for b in [run(2), run(3)] {
+        let a = &one;
+        assert_eq!(a.mesh.points.len(), b.mesh.points.len());
+        assert!(a
+            .mesh
+            .points
+            .iter()
+            .zip(&b.mesh.points)
+            .all(|(p, q)| p.to_array().map(f64::to_bits) == q.to_array().map(f64::to_bits)));
+        assert_eq!(a.mesh.face_vertices, b.mesh.face_vertices);
+        assert_eq!(a.mesh.owner, b.mesh.owner);
+    }
 }
 
 #[test]
