@@ -296,6 +296,7 @@ pub(crate) fn classify(
         fill[q] += 1;
     }
     drop(fill);
+    crate::tmark("cls.adj");
     let closed = is_closed(index.surface());
     let graph = Graph {
         deg: &deg,
@@ -332,6 +333,7 @@ pub(crate) fn classify(
         }
         comps = graph.components(&skip, closed);
     }
+    crate::tmark("cls.comps");
     let Components {
         comp,
         rel,
@@ -388,6 +390,7 @@ pub(crate) fn classify(
             }
         }
     }
+    crate::tmark("cls.points");
     // runs of untouched leaves
     let mut uf = UnionFind::new(leaves.len());
     for f in &topo.faces {
@@ -395,6 +398,7 @@ pub(crate) fn classify(
             uf.union(f.e(), f.n);
         }
     }
+    crate::tmark("cls.uf");
     const UNKNOWN: u8 = 2;
     let mut run_class = vec![UNKNOWN; leaves.len()];
     for l in 0..leaves.len() as u32 {
