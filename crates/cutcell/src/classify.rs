@@ -203,10 +203,11 @@ pub(crate) fn is_closed(s: &Surface) -> bool {
 
 const NONE: u32 = u32::MAX;
 
-/// The queried edges as a CSR graph with the winding-number change along each.
+/// The queried edges (sorted keys, see [`edge_key`]) with the winding-number change along
+/// each: `w(q) = w(p) + delta` for the key `(p, q)`.
 struct Graph<'a> {
-    deg: &'a [u32],
-    adj: &'a [(u32, i32)],
+    keys: &'a [u64],
+    delta: &'a [i32],
 }
 
 /// Connected components of the graph without the `skip` vertices: each vertex's component and
@@ -219,42 +220,85 @@ struct Components {
     bad: Vec<bool>,
 }
 
+/// Root of `p` and `w(p) - w(root)` in a union-find whose `off[x]` is `w(x) - w(parent[x])`,
+/// compressing the path (each node then points at the root with its full offset).
+fn find_rel(parent: &mut [u32], off: &mut [i32], p: u32) -> (u32, i32) {
+    let (mut r, mut o) = (p, 0i32);
+    while parent[r as usize] != r {
+        o += off[r as usize];
+        r = parent[r as usize];
+    }
+    let (mut x, mut ox) = (p, o);
+    while parent[x as usize] != x {
+        let next = parent[x as usize];
+        let o_next = ox - off[x as usize];
+        parent[x as usize] = r;
+        off[x as usize] = ox;
+        x = next;
+        ox = o_next;
+    }
+    (r, o)
+}
+
 impl Graph<'_> {
+    /// By a union-find with offsets (the weighted union-find of Galler and Fischer 1964 with
+    /// path compression, Tarjan 1975), the smaller vertex always the root: components come out
+    /// numbered by their smallest vertex, each rooted there, as a search from the smallest
+    /// unvisited vertex would number them. A component is consistent iff no edge closes a cycle
+    /// with a different offset.
     fn components(&self, skip: &[bool], closed: bool) -> Components {
         let np = skip.len();
-        let (deg, adj) = (self.deg, self.adj);
+        let mut parent: Vec<u32> = (0..np as u32).collect();
+        let mut off = vec![0i32; np];
+        let mut bad_root = vec![false; np];
+        let mut linked = vec![false; np];
+        for (&k, &d) in self.keys.iter().zip(self.delta) {
+            let (p, q) = ((k >> 32) as u32, k as u32);
+            // a vertex with an edge is in a component (alone when its edges all lead to
+            // skipped vertices)
+            linked[p as usize] |= !skip[p as usize];
+            linked[q as usize] |= !skip[q as usize];
+            if skip[p as usize] || skip[q as usize] {
+                continue;
+            }
+            let (rp, op) = find_rel(&mut parent, &mut off, p);
+            let (rq, oq) = find_rel(&mut parent, &mut off, q);
+            if rp == rq {
+                if op + d != oq {
+                    bad_root[rp as usize] = true;
+                }
+                continue;
+            }
+            // w(rq) - w(rp) = op + d - oq
+            let rel = op + d - oq;
+            let (lo, hi) = if rp < rq {
+                off[rq as usize] = rel;
+                (rp, rq)
+            } else {
+                off[rp as usize] = -rel;
+                (rq, rp)
+            };
+            parent[hi as usize] = lo;
+            bad_root[lo as usize] |= bad_root[hi as usize];
+        }
         let mut comp = vec![NONE; np];
         let mut rel = vec![0i32; np];
         let mut roots: Vec<u32> = Vec::new();
         let mut bad: Vec<bool> = Vec::new();
-        let mut stack: Vec<u32> = Vec::new();
-        for r in 0..np as u32 {
-            if comp[r as usize] != NONE
-                || skip[r as usize]
-                || deg[r as usize] == deg[r as usize + 1]
-            {
+        for p in 0..np as u32 {
+            if !linked[p as usize] {
                 continue;
             }
-            let c = roots.len() as u32;
-            roots.push(r);
-            bad.push(!closed);
-            comp[r as usize] = c;
-            stack.push(r);
-            while let Some(p) = stack.pop() {
-                for &(q, dl) in &adj[deg[p as usize] as usize..deg[p as usize + 1] as usize] {
-                    if skip[q as usize] {
-                        continue;
-                    }
-                    let w = rel[p as usize] + dl;
-                    if comp[q as usize] == NONE {
-                        comp[q as usize] = c;
-                        rel[q as usize] = w;
-                        stack.push(q);
-                    } else if rel[q as usize] != w {
-                        bad[c as usize] = true;
-                    }
-                }
+            let (r, o) = find_rel(&mut parent, &mut off, p);
+            if r == p {
+                comp[p as usize] = roots.len() as u32;
+                roots.push(p);
+                bad.push(!closed || bad_root[p as usize]);
+            } else {
+                // r < p: numbered already
+                comp[p as usize] = comp[r as usize];
             }
+            rel[p as usize] = o;
         }
         Components {
             comp,
@@ -277,30 +321,10 @@ pub(crate) fn classify(
     let leaves = tree.leaves();
     let np = topo.grid.len();
     let gpos = |p: u32| d.point(topo.grid[p as usize]);
-    // adjacency of the queried edges, with the winding-number change along each
-    let mut deg = vec![0u32; np + 1];
-    for &k in &eh.keys {
-        deg[(k >> 32) as usize + 1] += 1;
-        deg[(k as u32) as usize + 1] += 1;
-    }
-    for i in 0..np {
-        deg[i + 1] += deg[i];
-    }
-    let mut fill = deg.clone();
-    let mut adj = vec![(0u32, 0i32); deg[np] as usize];
-    for (e, &k) in eh.keys.iter().enumerate() {
-        let (p, q) = ((k >> 32) as usize, (k as u32) as usize);
-        adj[fill[p] as usize] = (q as u32, eh.delta[e]);
-        fill[p] += 1;
-        adj[fill[q] as usize] = (p as u32, -eh.delta[e]);
-        fill[q] += 1;
-    }
-    drop(fill);
-    crate::tmark("cls.adj");
     let closed = is_closed(index.surface());
     let graph = Graph {
-        deg: &deg,
-        adj: &adj,
+        keys: &eh.keys,
+        delta: &eh.delta,
     };
     let mut skip = vec![false; np];
     let mut comps = graph.components(&skip, closed);
