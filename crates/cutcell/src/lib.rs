@@ -393,6 +393,47 @@ pub fn cut_cells_with_regions(
         s == CUT || (s != SOLID && touched.is(l))
     });
     tmark("leaffaces");
+    // cells to warn about, read off the face polygons, which are freed then: the closing
+    // below needs only the clip's polygons (peak memory)
+    let any_multi = edges.hits.iter().any(|&h| h >= 2);
+    let multi: Vec<u8> = (0..leaves.len() as u32)
+        .into_par_iter()
+        .with_min_len(256)
+        .map(|l| {
+            if status[l as usize] == SOLID || !touched.is(l) {
+                return 0;
+            }
+            let faces = if any_multi { topo.faces_of(l) } else { &[] };
+            for &f in faces {
+                let p = topo.face(f);
+                for i in 0..p.len() {
+                    if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
+                        if edges.hits[e] >= 2 {
+                            return 1;
+                        }
+                    }
+                }
+            }
+            if status[l as usize] == FLUID {
+                // a surface vertex deep inside a uniform leaf: a body part smaller than the cell
+                let b = domain.key_box(leaves[l as usize]);
+                let m = 0.1 * b.extent().x;
+                let inner =
+                    octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
+                let s = index.surface();
+                // the leaf's list holds every triangle meeting its box
+                if touched.of(l).iter().any(|&t| {
+                    s.corners(t as usize)
+                        .iter()
+                        .any(|c| inner.contains_point(*c))
+                }) {
+                    return 2;
+                }
+            }
+            0
+        })
+        .collect();
+    topo.release_face_polygons();
     let pts = Points {
         domain,
         grid: &topo.grid,
@@ -437,44 +478,6 @@ pub fn cut_cells_with_regions(
             });
         }
     };
-    let any_multi = edges.hits.iter().any(|&h| h >= 2);
-    let multi: Vec<u8> = (0..leaves.len() as u32)
-        .into_par_iter()
-        .with_min_len(256)
-        .map(|l| {
-            if status[l as usize] == SOLID || !touched.is(l) {
-                return 0;
-            }
-            let faces = if any_multi { topo.faces_of(l) } else { &[] };
-            for &f in faces {
-                let p = topo.face(f);
-                for i in 0..p.len() {
-                    if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
-                        if edges.hits[e] >= 2 {
-                            return 1;
-                        }
-                    }
-                }
-            }
-            if status[l as usize] == FLUID {
-                // a surface vertex deep inside a uniform leaf: a body part smaller than the cell
-                let b = domain.key_box(leaves[l as usize]);
-                let m = 0.1 * b.extent().x;
-                let inner =
-                    octocut_surface::Aabb::new(b.min + Vec3::splat(m), b.max - Vec3::splat(m));
-                let s = index.surface();
-                // the leaf's list holds every triangle meeting its box
-                if touched.of(l).iter().any(|&t| {
-                    s.corners(t as usize)
-                        .iter()
-                        .any(|c| inner.contains_point(*c))
-                }) {
-                    return 2;
-                }
-            }
-            0
-        })
-        .collect();
     for (l, &m) in multi.iter().enumerate() {
         match m {
             1 => warn(

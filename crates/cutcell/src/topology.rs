@@ -91,6 +91,13 @@ impl Topology {
         &self.face_pts[self.face_off[f as usize] as usize..self.face_off[f as usize + 1] as usize]
     }
 
+    /// Frees the face polygons (`face`), keeping the face list, the leaf face lists and the
+    /// grid.
+    pub fn release_face_polygons(&mut self) {
+        self.face_off = Vec::new();
+        self.face_pts = Vec::new();
+    }
+
     /// Frees the vertex data (coordinates, corners, face polygons, leaf face lists), keeping
     /// the face list.
     pub fn release_vertex_data(&mut self) {
