@@ -246,9 +246,12 @@ impl Mesher {
                 .collect(),
             estimated_leaves: est.leaves,
             estimated_cells: (est.leaves as f64 * est.kept_fraction).ceil() as u64,
-            // the whole process: measured 493 to 532 bytes a leaf of peak RSS at 3.6M and 14M
-            // leaves (benches/README.md, whole process); 600 keeps a margin
-            estimated_memory_bytes: est.memory_bytes.max(est.leaves.saturating_mul(600)),
+            // the whole process: measured peak RSS of 340-350 bytes a planned leaf at 3.6M and
+            // 14M leaves, 380 at 0.9M, plus a fixed ~30 MB (benches/README.md, whole process,
+            // 2026-12-02 session 5); 450 a leaf plus 32 MiB keeps a margin of about 30% there
+            estimated_memory_bytes: est
+                .memory_bytes
+                .max((32 << 20) + est.leaves.saturating_mul(450)),
             max_cells: spec.limits.max_cells,
             max_memory_bytes: spec.limits.max_memory_bytes,
         })
