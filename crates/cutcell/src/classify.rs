@@ -241,11 +241,11 @@ fn find_rel(parent: &mut [u32], off: &mut [i32], p: u32) -> (u32, i32) {
 }
 
 impl Graph<'_> {
-    /// By a union-find with offsets (the weighted union-find of Galler and Fischer 1964 with
-    /// path compression, Tarjan 1975), the smaller vertex always the root: components come out
-    /// numbered by their smallest vertex, each rooted there, as a search from the smallest
-    /// unvisited vertex would number them. A component is consistent iff no edge closes a cycle
-    /// with a different offset.
+    /// By a union-find (Galler and Fischer 1964; path compression, Tarjan 1975) that carries
+    /// each vertex's winding-number offset to its parent (common practice, a "union-find with
+    /// potentials"), the smaller root always kept: components come out numbered by their
+    /// smallest vertex and rooted there, as a search from the smallest unvisited vertex numbers
+    /// them. A component is consistent iff no edge closes a cycle with a different offset.
     fn components(&self, skip: &[bool], closed: bool) -> Components {
         let np = skip.len();
         let mut parent: Vec<u32> = (0..np as u32).collect();
@@ -469,6 +469,83 @@ pub(crate) fn classify(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn components_match_a_search_of_the_edge_graph() {
+        // reference: the definition, a depth-first search from each smallest unvisited vertex
+        // over the non-skipped edges, offsets summed along the search tree, a component bad when
+        // an edge disagrees with them
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+        for round in 0..40 {
+            let np = 60;
+            // potentials with a few edges off by one (inconsistent cycles), vertices skipped
+            let w: Vec<i32> = (0..np).map(|_| rng.random_range(-3..4)).collect();
+            let mut e: Vec<(u64, i32)> = Vec::new();
+            for _ in 0..rng.random_range(20..90) {
+                let (p, q) = (rng.random_range(0..np), rng.random_range(0..np));
+                if p != q {
+                    let (p, q) = (p.min(q) as u32, p.max(q) as u32);
+                    let bump = (rng.random_range(0..25) == 0) as i32;
+                    e.push((edge_key(p, q), w[q as usize] - w[p as usize] + bump));
+                }
+            }
+            e.sort_by_key(|x| x.0);
+            e.dedup_by_key(|x| x.0);
+            let skip: Vec<bool> = (0..np).map(|_| rng.random_range(0..10) == 0).collect();
+            let closed = round % 7 != 0;
+            let keys: Vec<u64> = e.iter().map(|x| x.0).collect();
+            let delta: Vec<i32> = e.iter().map(|x| x.1).collect();
+            let got = Graph {
+                keys: &keys,
+                delta: &delta,
+            }
+            .components(&skip, closed);
+            // the reference
+            let mut adj = vec![Vec::new(); np];
+            for (&k, &d) in keys.iter().zip(&delta) {
+                let (p, q) = ((k >> 32) as usize, (k as u32) as usize);
+                adj[p].push((q, d));
+                adj[q].push((p, -d));
+            }
+            let mut comp = vec![NONE; np];
+            let mut rel = vec![0i32; np];
+            let (mut roots, mut bad) = (Vec::new(), Vec::new());
+            for r in 0..np {
+                if comp[r] != NONE || skip[r] || adj[r].is_empty() {
+                    continue;
+                }
+                let c = roots.len() as u32;
+                roots.push(r as u32);
+                bad.push(!closed);
+                comp[r] = c;
+                let mut stack = vec![r];
+                while let Some(p) = stack.pop() {
+                    for &(q, d) in &adj[p] {
+                        if skip[q] {
+                            continue;
+                        }
+                        if comp[q] == NONE {
+                            comp[q] = c;
+                            rel[q] = rel[p] + d;
+                            stack.push(q);
+                        } else if rel[q] != rel[p] + d {
+                            bad[c as usize] = true;
+                        }
+                    }
+                }
+            }
+            assert_eq!(got.comp, comp, "round {round}");
+            assert_eq!(got.roots, roots, "round {round}");
+            assert_eq!(got.bad, bad, "round {round}");
+            for p in 0..np {
+                // offsets are path-independent only in consistent components
+                if comp[p] != NONE && !bad[comp[p] as usize] {
+                    assert_eq!(got.rel[p], rel[p], "round {round}, vertex {p}");
+                }
+            }
+        }
+    }
 
     #[test]
     fn touched_lists_equal_one_query_per_leaf() {

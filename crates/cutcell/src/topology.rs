@@ -197,9 +197,9 @@ impl Topology {
     /// order); the others get empty lists. Built after the classification, for the leaves
     /// that are closed, so that the lists of all leaves never coexist with the clip's arrays
     /// (peak memory).
-    pub fn build_leaf_faces(&mut self, n_leaves: usize, need: impl Fn(u32) -> bool + Sync) {
+    pub fn build_leaf_faces(&mut self, n_leaves: usize, need: impl Fn(u32) -> bool) {
         let faces = &self.faces;
-        // (leaf, face) of every needed side, in face order
+        // counts, offsets, then the faces in face order (the `e` side before the `n` side)
         let mut leaf_off = vec![0u32; n_leaves + 1];
         for f in faces {
             if need(f.e()) {
@@ -214,12 +214,16 @@ impl Topology {
         }
         let mut fill = leaf_off.clone();
         let mut leaf_faces = vec![0u32; leaf_off[n_leaves] as usize];
+        let mut put = |l: u32, i: usize| {
+            leaf_faces[fill[l as usize] as usize] = i as u32;
+            fill[l as usize] += 1;
+        };
         for (i, f) in faces.iter().enumerate() {
-            for l in [f.e(), f.n] {
-                if (l == f.e() || !f.is_boundary()) && need(l) {
-                    leaf_faces[fill[l as usize] as usize] = i as u32;
-                    fill[l as usize] += 1;
-                }
+            if need(f.e()) {
+                put(f.e(), i);
+            }
+            if !f.is_boundary() && need(f.n) {
+                put(f.n, i);
             }
         }
         self.leaf_off = leaf_off;

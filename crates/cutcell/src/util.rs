@@ -1,5 +1,6 @@
 //! A union-find over `0..n` (Tarjan 1975) that always keeps the smaller index as the root, so
-//! components are named by their first member (deterministic whatever the thread count).
+//! components are named by their first member (deterministic whatever the thread count), and
+//! [`gather_chunk`], the chunk size of the stage's gathered parallel maps.
 
 /// Disjoint sets over `0..n` with the smallest member as root.
 #[derive(Clone, Debug)]
@@ -41,6 +42,14 @@ impl UnionFind {
     }
 }
 
+/// Items per task of a chunked parallel map whose per-chunk outputs are gathered afterwards:
+/// about 8 tasks per thread, between `min` and `max`. Large chunks keep each output vector
+/// large enough to be its own mapping, returned to the system when the gather frees it (peak
+/// memory); the outputs never depend on the chunk size.
+pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
+    (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -52,12 +61,4 @@ mod tests {
         assert_eq!(u.find(3), 1);
         assert_eq!(u.find(0), 0);
     }
-}
-
-/// Items per task of a chunked parallel map whose per-chunk outputs are gathered afterwards:
-/// about 8 tasks per thread, between `min` and `max`. Large chunks keep each output vector
-/// large enough to be its own mapping, returned to the system when the gather frees it (peak
-/// memory); the outputs never depend on the chunk size.
-pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
-    (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
 }
