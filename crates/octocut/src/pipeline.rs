@@ -517,12 +517,9 @@ impl Mesher {
 pub fn release_free_memory() {
     #[cfg(all(target_os = "linux", target_env = "gnu"))]
     {
-        extern "C" {
-            fn malloc_trim(pad: usize) -> i32;
-        }
         // SAFETY: glibc's malloc_trim(3) takes a byte count and has no other precondition
         unsafe {
-            malloc_trim(0);
+            libc::malloc_trim(0);
         }
     }
 }
