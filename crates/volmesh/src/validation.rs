@@ -30,6 +30,7 @@ use crate::mesh::VolumeMesh;
 use octocut_surface::{Aabb, Vec3};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
+use std::sync::atomic::{AtomicU32, Ordering};
 
 /// Relative tolerance of the closure, volume and on-edge checks.
 pub const REL_TOL: f64 = 1e-9;
@@ -38,8 +39,10 @@ pub const REL_TOL: f64 = 1e-9;
 /// the chunks in order, so the report does not depend on the thread count.
 pub const CHUNK: usize = 4096;
 
-/// Edge occurrences held at once by the T-junction check (4 bytes each), or a quarter of all.
-const SLAB: usize = 1 << 22;
+/// Edge occurrences held at once by the T-junction check (4 bytes each: 256 MiB), or a
+/// quarter of all when that is more. Validation is not the run's memory peak (the cut stage
+/// is), so one pass covers meshes up to about 3M cells.
+const SLAB: usize = 1 << 26;
 
 /// One defect of a mesh.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -229,7 +232,7 @@ impl VolumeMesh {
             .par_iter_mut()
             .enumerate()
             .map(|(k, (vs, cs))| {
-                let (mut edges, mut probs, mut vol) = (Vec::new(), Vec::new(), 0.0);
+                let (mut edges, mut probs, mut vol) = ((Vec::new(), Vec::new()), Vec::new(), 0.0);
                 let mut averages = Vec::new();
                 for c in k * CHUNK..((k + 1) * CHUNK).min(nc) {
                     let (v, x) =
@@ -587,7 +590,7 @@ impl VolumeMesh {
         c: u32,
         faces: &[u32],
         averages: &mut Vec<Vec3>,
-        edges: &mut Vec<(u64, i32)>,
+        edges: &mut (Vec<u64>, Vec<u64>),
         probs: &mut Vec<Problem>,
     ) -> (f64, Vec3) {
         if faces.is_empty() {
@@ -612,7 +615,12 @@ impl VolumeMesh {
                 at: g.centroid,
             });
         }
-        edges.clear();
+        // directed edges split by direction (lower to higher id, and back): the cell's edges
+        // are matched exactly when the two sorted lists are equal; only a cell where they
+        // differ pays for the signed sums that name the unmatched edges
+        let (up, down) = (&mut edges.0, &mut edges.1);
+        up.clear();
+        down.clear();
         for &f in faces {
             let vs = self.face(f as usize);
             let out = self.owner[f as usize] == c;
@@ -621,10 +629,20 @@ impl VolumeMesh {
                 if !out {
                     std::mem::swap(&mut a, &mut b);
                 }
-                let (lo, hi, s) = if a < b { (a, b, 1) } else { (b, a, -1) };
-                edges.push(((lo as u64) << 32 | hi as u64, s));
+                if a < b {
+                    up.push((a as u64) << 32 | b as u64);
+                } else {
+                    down.push((b as u64) << 32 | a as u64);
+                }
             }
         }
+        up.sort_unstable();
+        down.sort_unstable();
+        if up == down {
+            return (g.volume, g.centroid);
+        }
+        let mut edges: Vec<(u64, i32)> = up.iter().map(|&k| (k, 1)).collect();
+        edges.extend(down.iter().map(|&k| (k, -1)));
         edges.sort_unstable();
         let mut i = 0;
         while i < edges.len() {
@@ -654,8 +672,9 @@ impl VolumeMesh {
     /// The unique undirected edges are enumerated by their lower end point, a slab of lower
     /// end points at a time: per slab, a CSR of the upper end points (u32) filled from every
     /// face, each row sorted and deduplicated in place. Points are binned on a uniform grid
-    /// (sorted `(bin, point)` pairs); every edge tests the points of the bins its box
-    /// (widened by the tolerance) touches. The grid spacing only affects speed.
+    /// (sorted `(bin, point)` pairs, each row of bins along x found by a [`RowTable`]); every
+    /// edge tests the points of the bins its box (widened by the tolerance) touches. The grid
+    /// spacing only affects speed.
     fn check_vertices_on_edges(&self, out: &mut Vec<Problem>) {
         self.vertices_on_edges(out, SLAB)
     }
@@ -673,14 +692,17 @@ impl VolumeMesh {
             let (a, b) = (vs[i], vs[(i + 1) % vs.len()]);
             (a.min(b), a.max(b))
         };
-        // edge occurrences per lower end point
-        let mut count = vec![0u32; np];
-        for f in 0..nf {
-            let vs = self.face(f);
-            for i in 0..vs.len() {
-                count[lower(vs, i).0 as usize] += 1;
+        // edge occurrences per lower end point (atomic counts: the same at any thread count)
+        let count: Vec<AtomicU32> = (0..np).map(|_| AtomicU32::new(0)).collect();
+        (0..nf.div_ceil(CHUNK)).into_par_iter().for_each(|k| {
+            for f in k * CHUNK..((k + 1) * CHUNK).min(nf) {
+                let vs = self.face(f);
+                for i in 0..vs.len() {
+                    count[lower(vs, i).0 as usize].fetch_add(1, Ordering::Relaxed);
+                }
             }
-        }
+        });
+        let count: Vec<u32> = count.into_iter().map(AtomicU32::into_inner).collect();
         // grid spacing: the median length of a deterministic sample of edges (the first edge
         // of every `step`-th face), at least 2^-20 of the box diagonal; origin shifted half a
         // cell so that lattice points sit at cell centres
@@ -731,6 +753,8 @@ impl VolumeMesh {
             pos[v as usize] = i as u32;
         }
         let pos = &pos;
+        let rows_of = RowTable::new(binned, nx as u64);
+        let rows_of = &rows_of;
         let bin_start = |v: u32| {
             let mut i = pos[v as usize] as usize;
             let k = binned[i].0;
@@ -764,7 +788,10 @@ impl VolumeMesh {
                     let k0 = key([lo[0], y, z]);
                     let mut s = match known.iter().find(|kn| kn.0 == k0) {
                         Some(kn) => kn.1,
-                        None => binned.partition_point(|q| q.0 < k0),
+                        None => match rows_of.get(k0 / nx as u64) {
+                            Some((r0, r1)) => r0 + binned[r0..r1].partition_point(|q| q.0 < k0),
+                            None => continue, // no point in this row of bins
+                        },
                     };
                     for kk in k0..=k0 + (hi[0] - lo[0]) as u64 {
                         while s < binned.len() && binned[s].0 < kk {
@@ -804,7 +831,7 @@ impl VolumeMesh {
         let total_occ: usize = count.iter().map(|&n| n as usize).sum();
         let slab = slab.max(total_occ.div_ceil(4));
         let mut found: Vec<Problem> = Vec::new();
-        let mut rows: Vec<u32> = Vec::new();
+        let mut rows: Vec<u32>;
         let mut offs: Vec<u32> = Vec::new();
         let mut p0 = 0usize;
         while p0 < np {
@@ -819,21 +846,24 @@ impl VolumeMesh {
             for p in p0..p1 {
                 offs.push(offs[p - p0] + count[p]);
             }
-            rows.clear();
-            rows.resize(total, 0);
-            let mut next: Vec<u32> = offs[..p1 - p0].to_vec();
-            for f in 0..nf {
-                let vs = self.face(f);
-                for i in 0..vs.len() {
-                    let (a, b) = lower(vs, i);
-                    if (p0..p1).contains(&(a as usize)) {
-                        let slot = &mut next[a as usize - p0];
-                        rows[*slot as usize] = b;
-                        *slot += 1;
+            // filled in parallel: a row's order depends on the threads, but every row is
+            // sorted before it is read
+            let filled: Vec<AtomicU32> = (0..total).map(|_| AtomicU32::new(0)).collect();
+            let next: Vec<AtomicU32> = offs[..p1 - p0].iter().map(|&o| AtomicU32::new(o)).collect();
+            (0..nf.div_ceil(CHUNK)).into_par_iter().for_each(|k| {
+                for f in k * CHUNK..((k + 1) * CHUNK).min(nf) {
+                    let vs = self.face(f);
+                    for i in 0..vs.len() {
+                        let (a, b) = lower(vs, i);
+                        if (p0..p1).contains(&(a as usize)) {
+                            let slot = next[a as usize - p0].fetch_add(1, Ordering::Relaxed);
+                            filled[slot as usize].store(b, Ordering::Relaxed);
+                        }
                     }
                 }
-            }
+            });
             drop(next);
+            rows = filled.into_iter().map(AtomicU32::into_inner).collect();
             // split the rows into chunks of CHUNK lower points, sorted and tested in parallel
             let mut parts: Vec<(usize, &mut [u32])> = Vec::new();
             let mut rest: &mut [u32] = &mut rows;
@@ -906,6 +936,55 @@ impl VolumeMesh {
             }
         }
         out.extend(found);
+    }
+}
+
+/// Where each row of bins (`bin key / nx`, a run of bins along x) starts and ends in the sorted
+/// `(bin, point)` pairs: an open-addressing table (linear probing, [`mix`] hash), so that an
+/// edge finds a row of its box without a binary search over all points.
+struct RowTable {
+    slots: Vec<(u64, u32, u32)>,
+    mask: usize,
+}
+
+impl RowTable {
+    const EMPTY: u64 = u64::MAX;
+
+    fn new(binned: &[(u64, u32)], nx: u64) -> RowTable {
+        let mut runs = Vec::new();
+        let mut i = 0;
+        while i < binned.len() {
+            let r = binned[i].0 / nx;
+            let j = i + binned[i..].partition_point(|q| q.0 / nx == r);
+            runs.push((r, i as u32, j as u32));
+            i = j;
+        }
+        let cap = (2 * runs.len()).next_power_of_two().max(2);
+        let mask = cap - 1;
+        let mut slots = vec![(Self::EMPTY, 0, 0); cap];
+        for run in runs {
+            let mut h = mix(run.0) as usize & mask;
+            while slots[h].0 != Self::EMPTY {
+                h = (h + 1) & mask;
+            }
+            slots[h] = run;
+        }
+        RowTable { slots, mask }
+    }
+
+    /// The range of row `r` in the pairs, if any point lies in it.
+    fn get(&self, r: u64) -> Option<(usize, usize)> {
+        let mut h = mix(r) as usize & self.mask;
+        loop {
+            let s = self.slots[h];
+            if s.0 == r {
+                return Some((s.1 as usize, s.2 as usize));
+            }
+            if s.0 == Self::EMPTY {
+                return None;
+            }
+            h = (h + 1) & self.mask;
+        }
     }
 }
 
@@ -1232,6 +1311,30 @@ mod tests {
             let r = m.validate();
             assert!(!r.is_valid());
             assert!(kinds(&r).contains(&"non_positive_volume") || kinds(&r).contains(&"open_cell"));
+        }
+    }
+
+    #[test]
+    fn row_table_finds_every_row_and_no_other() {
+        // sorted (bin, point) pairs with gaps, rows of nx = 7 bins; each row's range checked
+        // against a linear scan, absent rows against None
+        let nx = 7u64;
+        let mut z = 12345u64;
+        let mut binned: Vec<(u64, u32)> = (0..5000u32)
+            .map(|i| {
+                z = mix(z);
+                ((z % 4000) * (1 + z % 3 / 2), i)
+            })
+            .collect();
+        binned.sort_unstable();
+        let t = RowTable::new(&binned, nx);
+        for r in 0..binned.last().unwrap().0 / nx + 3 {
+            let lo = binned.iter().position(|q| q.0 / nx == r);
+            let hi = binned.iter().rposition(|q| q.0 / nx == r);
+            match (lo, hi) {
+                (Some(lo), Some(hi)) => assert_eq!(t.get(r), Some((lo, hi + 1)), "row {r}"),
+                _ => assert_eq!(t.get(r), None, "row {r}"),
+            }
         }
     }
 
