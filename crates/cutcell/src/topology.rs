@@ -10,6 +10,7 @@
 //! every leaf's faces tile its boundary exactly once. Needs fewer than 2^29 leaves (slot ids).
 
 use crate::concat::{concat, offsets};
+use crate::util::counting_sort_by;
 use octocut_octree::{OctKey, Octree};
 use rayon::prelude::*;
 
@@ -308,41 +309,16 @@ impl Vertices {
             .collect();
         drop(slot_group);
         crate::tmark("topo.ids");
-        // groups are in (z, y, x) order: that is the x-axis order
+        // groups are in (z, y, x) order: that is the x-axis order. The other two follow by
+        // stable counting sorts on one coordinate at a time (least significant first): by x
+        // then z gives (z, x, y), by y then x gives (x, y, z)
         let order0: Vec<u32> = group_id;
-        let pb = usize::BITS - ng.leading_zeros();
-        let by_axis = |a: usize| -> Vec<u32> {
-            let (b, c) = ((a + 1) % 3, (a + 2) % 3);
-            if 3 * cb + pb <= 64 {
-                // packed (b, c, a, point id) keys: the same order as the u128 ones below
-                let mut v: Vec<u64> = grid
-                    .par_iter()
-                    .enumerate()
-                    .map(|(p, g)| {
-                        let k = (g[b] as u64) << (2 * cb) | (g[c] as u64) << cb | g[a] as u64;
-                        k << pb | p as u64
-                    })
-                    .collect();
-                v.par_sort_unstable();
-                return v
-                    .into_iter()
-                    .map(|x| (x & ((1 << pb) - 1)) as u32)
-                    .collect();
-            }
-            let mut v: Vec<(u128, u32)> = grid
-                .par_iter()
-                .enumerate()
-                .map(|(p, g)| {
-                    (
-                        (g[b] as u128) << 64 | (g[c] as u128) << 32 | g[a] as u128,
-                        p as u32,
-                    )
-                })
-                .collect();
-            v.par_sort_unstable();
-            v.into_iter().map(|x| x.1).collect()
-        };
-        let order = [order0, by_axis(1), by_axis(2)];
+        let sorted = |ids: &[u32], a: usize| counting_sort_by(ids, max_c, |p| grid[p as usize][a]);
+        let (order1, order2) = rayon::join(
+            || sorted(&sorted(&order0, 0), 2),
+            || sorted(&sorted(&order0, 1), 0),
+        );
+        let order = [order0, order1, order2];
         let rank = std::array::from_fn(|a| {
             let mut r = vec![0u32; ng];
             for (i, &p) in order[a].iter().enumerate() {
@@ -358,44 +334,65 @@ impl Vertices {
 /// (smallest) slot of each group. `pack(s)` is slot `s`'s (key, slot) value, `key` and `slot`
 /// take it apart.
 ///
-/// Two rounds of sorting: each block of [`SLOT_BLOCK`] consecutive slots is sorted alone (in
-/// cache) and keeps one representative per key, its first slot; then the representatives of
-/// all blocks are sorted together in parallel. Neighbouring leaves share most corners, so the
-/// second sort sees a fraction of the slots. The groups are those of one global sort.
-fn group_slots<T: Ord + Copy + Send + Sync>(
+/// Two rounds: each block of [`SLOT_BLOCK`] consecutive slots keeps one representative per
+/// key, its first slot, found with a small open-addressing table (linear probing; in cache);
+/// then the representatives of all blocks are sorted together in parallel. Neighbouring
+/// leaves share most corners, so the sort sees a fraction of the slots. The groups are those
+/// of one global sort.
+fn group_slots<T: Ord + Copy + Send + Sync + Into<u128>>(
     n: usize,
     pack: impl Fn(usize) -> T + Sync + Send,
     key: impl Fn(T) -> T + Sync + Send,
     slot: impl Fn(T) -> usize + Sync + Send,
 ) -> (Vec<u32>, Vec<u32>) {
     let nb = n.div_ceil(SLOT_BLOCK);
-    // per block: representatives in key order, and each slot's representative index
+    let hash = |k: T| {
+        let k: u128 = k.into();
+        crate::util::mix(k as u64 ^ (k >> 64) as u64)
+    };
+    // per block: representatives in order of first slot, and each slot's representative index
     let blocks: Vec<(Vec<T>, Vec<u32>)> = (0..nb)
         .into_par_iter()
-        .map(|b| {
-            let (lo, hi) = (b * SLOT_BLOCK, ((b + 1) * SLOT_BLOCK).min(n));
-            let mut v: Vec<T> = (lo..hi).map(&pack).collect();
-            v.sort_unstable();
-            let mut reps = Vec::with_capacity(v.len() / 2);
-            let mut local = vec![0u32; hi - lo];
-            for (i, &x) in v.iter().enumerate() {
-                if i == 0 || key(v[i - 1]) != key(x) {
-                    reps.push(x);
+        .map_init(
+            || vec![0u32; 2 * SLOT_BLOCK],
+            |table, b| {
+                let (lo, hi) = (b * SLOT_BLOCK, ((b + 1) * SLOT_BLOCK).min(n));
+                let mask = table.len() - 1;
+                table.fill(0);
+                let mut reps: Vec<T> = Vec::with_capacity((hi - lo) / 2);
+                let mut local = Vec::with_capacity(hi - lo);
+                for s in lo..hi {
+                    let x = pack(s);
+                    let k = key(x);
+                    let mut h = hash(k) as usize & mask;
+                    loop {
+                        // 0 is empty, else a representative index + 1
+                        let t = table[h];
+                        if t == 0 {
+                            reps.push(x);
+                            table[h] = reps.len() as u32;
+                            local.push(reps.len() as u32 - 1);
+                            break;
+                        }
+                        if key(reps[t as usize - 1]) == k {
+                            local.push(t - 1);
+                            break;
+                        }
+                        h = (h + 1) & mask;
+                    }
                 }
-                local[slot(x) - lo] = reps.len() as u32 - 1;
-            }
-            (reps, local)
-        })
+                (reps, local)
+            },
+        )
         .collect();
     let mut all: Vec<T> = Vec::with_capacity(blocks.iter().map(|b| b.0.len()).sum());
     for b in &blocks {
         all.extend_from_slice(&b.0);
     }
     all.par_sort_unstable();
-    // group of every representative; a block's representatives come in its own key order, so
-    // the k-th one of block b met here is its k-th
+    // group of every representative: a representative's own slot maps to its index in its
+    // block's list
     let mut rep_group: Vec<Vec<u32>> = blocks.iter().map(|b| vec![0; b.0.len()]).collect();
-    let mut next = vec![0u32; nb];
     let mut ng = 0u32;
     // (key, slot) order: the first value of a key holds its smallest slot
     let mut first = Vec::new();
@@ -404,9 +401,8 @@ fn group_slots<T: Ord + Copy + Send + Sync>(
             ng += 1;
             first.push(slot(x) as u32);
         }
-        let b = slot(x) / SLOT_BLOCK;
-        rep_group[b][next[b] as usize] = ng - 1;
-        next[b] += 1;
+        let (b, o) = (slot(x) / SLOT_BLOCK, slot(x) % SLOT_BLOCK);
+        rep_group[b][blocks[b].1[o] as usize] = ng - 1;
     }
     drop(all);
     let mut group = vec![0u32; n];
@@ -421,7 +417,8 @@ fn group_slots<T: Ord + Copy + Send + Sync>(
     (group, first)
 }
 
-/// Slots sorted together in the first round of [`group_slots`] (a multiple of 8: whole leaves).
+/// Slots deduplicated together in the first round of [`group_slots`] (a power of two and a
+/// multiple of 8: whole leaves).
 const SLOT_BLOCK: usize = 4096;
 
 /// Appends the polygon of leaf `k`'s face in direction `d`, counter-clockwise seen from outside.

@@ -1,6 +1,8 @@
 //! A union-find over `0..n` (Tarjan 1975) that always keeps the smaller index as the root, so
 //! components are named by their first member (deterministic whatever the thread count), and
-//! [`gather_chunk`], the chunk size of the stage's gathered parallel maps.
+//! [`gather_chunk`], the chunk size of the stage's gathered parallel maps, [`mix`], the hash of
+//! the stage's small open-addressing tables, and [`counting_sort_by`], a stable counting sort
+//! of ids by a small integer key.
 
 /// Disjoint sets over `0..n` with the smallest member as root.
 #[derive(Clone, Debug)]
@@ -50,6 +52,35 @@ pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
     (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
 }
 
+/// The 64-bit finalizer of SplitMix64 (Steele, Lea, Flood 2014, "Fast splittable pseudorandom
+/// number generators"): every input bit affects every output bit.
+#[inline]
+pub(crate) fn mix(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^ (z >> 31)
+}
+
+/// `ids` reordered by `key(id)` (at most `max_key`), keeping the given order among equal keys
+/// (counting sort, common practice; one histogram, one prefix sum, one scatter).
+pub(crate) fn counting_sort_by(ids: &[u32], max_key: u32, key: impl Fn(u32) -> u32) -> Vec<u32> {
+    let mut start = vec![0u32; max_key as usize + 2];
+    for &i in ids {
+        start[key(i) as usize + 1] += 1;
+    }
+    for k in 1..start.len() {
+        start[k] += start[k - 1];
+    }
+    let mut out = vec![0u32; ids.len()];
+    for &i in ids {
+        let s = &mut start[key(i) as usize];
+        out[*s as usize] = i;
+        *s += 1;
+    }
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -60,5 +91,14 @@ mod tests {
         u.union(4, 1);
         assert_eq!(u.find(3), 1);
         assert_eq!(u.find(0), 0);
+    }
+
+    #[test]
+    fn counting_sort_is_the_stable_sort() {
+        let ids: Vec<u32> = (0..1000u32).map(|i| (i * 7919) % 1000).collect();
+        let key = |i: u32| (mix(i as u64) % 37) as u32;
+        let mut want = ids.clone();
+        want.sort_by_key(|&i| key(i)); // std's sort_by_key is stable
+        assert_eq!(counting_sort_by(&ids, 36, key), want);
     }
 }
