@@ -807,23 +807,31 @@ pub fn cut_cells_with_regions(
         .iter()
         .map(|&l| domain.key_box(leaves[l as usize]).volume())
         .collect();
-    let iface: Vec<(u32, u32, f64)> = (0..raw.len())
-        .into_par_iter()
-        .filter(|&i| raw.b[i] != BOUNDARY)
-        .map(|i| {
-            let f = raw.face(i);
-            let mut n = Vec3::ZERO;
-            for j in 0..f.len() {
-                n += points[f[j] as usize].cross(points[f[(j + 1) % f.len()] as usize]);
-            }
-            (raw.a[i], raw.b[i], 0.5 * n.length())
-        })
-        .collect();
+    // interior faces with their areas: those beside a small cell for the merge's passes, all of
+    // them only if a pass needs them
+    let small = |c: u32| cell_vol[c as usize] < opts.small_cell_fraction * cell_full[c as usize];
+    let interior_faces = |keep: &(dyn Fn(u32, u32) -> bool + Sync)| -> Vec<(u32, u32, f64)> {
+        (0..raw.len())
+            .into_par_iter()
+            .filter(|&i| raw.b[i] != BOUNDARY && keep(raw.a[i], raw.b[i]))
+            .map(|i| {
+                let f = raw.face(i);
+                let mut n = Vec3::ZERO;
+                for j in 0..f.len() {
+                    n += points[f[j] as usize].cross(points[f[(j + 1) % f.len()] as usize]);
+                }
+                (raw.a[i], raw.b[i], 0.5 * n.length())
+            })
+            .collect()
+    };
+    let iface = interior_faces(&|a, b| small(a) || small(b));
+    let all_faces = || interior_faces(&|_, _| true);
     let merged = merge_small(&MergeInput {
         volume: &cell_vol,
         full: &cell_full,
         alive: &alive,
         faces: &iface,
+        all_faces: &all_faces,
         fraction: opts.small_cell_fraction,
     });
     report.merged_cells = merged.merged;
