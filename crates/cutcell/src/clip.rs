@@ -669,64 +669,161 @@ impl ClipCtx<'_> {
             })
             .collect();
         crate::tmark("clip.faces");
+        let npk = pk.hit.len();
+        // every face records its polygon and chord counts once
+        assert_eq!(
+            chunks.iter().map(|ch| ch.n_polys.len()).sum::<usize>(),
+            nf as usize
+        );
+        let fallbacks = chunks.iter().map(|c| c.fallbacks).sum();
+        // exact sizes up front; each chunk's outputs are disjoint ranges of the arrays, from
+        // the counts of the chunks before it
+        let total = |f: &dyn Fn(&Chunk) -> usize| chunks.iter().map(f).sum::<usize>();
         let mut c = Clip {
-            face_poly: Vec::with_capacity(nf as usize + 1),
-            poly_off: vec![0],
-            poly_pts: Vec::new(),
-            face_chord: Vec::with_capacity(nf as usize + 1),
-            chord_off: vec![0],
-            chord_pts: Vec::new(),
-            chord_poly: Vec::new(),
+            face_poly: vec![0; nf as usize + 1],
+            poly_off: vec![0; total(&|ch| ch.poly_len.len()) + 1],
+            poly_pts: vec![0; total(&|ch| ch.poly_pts.len())],
+            face_chord: vec![0; nf as usize + 1],
+            chord_off: vec![0; total(&|ch| ch.chord_len.len()) + 1],
+            chord_pts: vec![0; total(&|ch| ch.chord_pts.len())],
+            chord_poly: vec![0; total(&|ch| ch.chord_poly.len())],
             pierce: pk.hit.iter().map(|h| h.0).collect(),
             poke_plane: pk.hit.iter().map(|h| (h.1, h.2)).collect(),
-            pair: vec![[Vec3::ZERO; 2]; pk.hit.len()],
-            fallbacks: chunks.iter().map(|c| c.fallbacks).sum(),
+            pair: vec![[Vec3::ZERO; 2]; npk],
+            fallbacks,
         };
-        // exact sizes up front: the chunks are freed one by one while the arrays fill, and no
-        // array is reallocated on the way (peak memory)
-        let total = |f: &dyn Fn(&Chunk) -> usize| chunks.iter().map(f).sum::<usize>();
-        c.poly_off.reserve_exact(total(&|ch| ch.poly_len.len()));
-        c.poly_pts.reserve_exact(total(&|ch| ch.poly_pts.len()));
-        c.chord_off.reserve_exact(total(&|ch| ch.chord_len.len()));
-        c.chord_pts.reserve_exact(total(&|ch| ch.chord_pts.len()));
-        c.chord_poly.reserve_exact(total(&|ch| ch.chord_poly.len()));
-        c.pierce.reserve_exact(total(&|ch| ch.pierce.len()));
-        c.pair.reserve_exact(total(&|ch| ch.pair.len()));
-        c.face_poly.push(0);
-        c.face_chord.push(0);
-        let remap = |p: u32, base: u32| {
+        c.pierce
+            .resize(npk + total(&|ch| ch.pierce.len()), Vec3::ZERO);
+        c.pair.resize(c.pierce.len(), [Vec3::ZERO; 2]);
+        let mut bases = Vec::with_capacity(chunks.len());
+        let mut at = Bases {
+            pierce: npk as u32,
+            ..Bases::default()
+        };
+        for ch in &chunks {
+            bases.push(at);
+            at.poly += ch.poly_len.len() as u32;
+            at.pts += ch.poly_pts.len() as u32;
+            at.chord += ch.chord_len.len() as u32;
+            at.chord_pts += ch.chord_pts.len() as u32;
+            at.pierce += ch.pierce.len() as u32;
+        }
+        let outs = {
+            use crate::concat::split_by;
+            let by = |f: fn(&Chunk) -> usize| chunks.iter().map(f).collect::<Vec<_>>().into_iter();
+            let face_poly = split_by(&mut c.face_poly[1..], by(|ch| ch.n_polys.len()));
+            let poly_off = split_by(&mut c.poly_off[1..], by(|ch| ch.poly_len.len()));
+            let poly_pts = split_by(&mut c.poly_pts, by(|ch| ch.poly_pts.len()));
+            let face_chord = split_by(&mut c.face_chord[1..], by(|ch| ch.n_chords.len()));
+            let chord_off = split_by(&mut c.chord_off[1..], by(|ch| ch.chord_len.len()));
+            let chord_pts = split_by(&mut c.chord_pts, by(|ch| ch.chord_pts.len()));
+            let chord_poly = split_by(&mut c.chord_poly, by(|ch| ch.chord_poly.len()));
+            let pierce = split_by(&mut c.pierce[npk..], by(|ch| ch.pierce.len()));
+            let pair = split_by(&mut c.pair[npk..], by(|ch| ch.pair.len()));
+            let mut outs = Vec::with_capacity(chunks.len());
+            let mut it = (
+                face_poly.into_iter(),
+                poly_off.into_iter(),
+                poly_pts.into_iter(),
+                face_chord.into_iter(),
+                chord_off.into_iter(),
+                chord_pts.into_iter(),
+                chord_poly.into_iter(),
+                pierce.into_iter(),
+                pair.into_iter(),
+            );
+            for _ in 0..chunks.len() {
+                outs.push(ChunkOut {
+                    face_poly: it.0.next().unwrap(),
+                    poly_off: it.1.next().unwrap(),
+                    poly_pts: it.2.next().unwrap(),
+                    face_chord: it.3.next().unwrap(),
+                    chord_off: it.4.next().unwrap(),
+                    chord_pts: it.5.next().unwrap(),
+                    chord_poly: it.6.next().unwrap(),
+                    pierce: it.7.next().unwrap(),
+                    pair: it.8.next().unwrap(),
+                });
+            }
+            outs
+        };
+        // a wave of one chunk per thread at a time, each chunk freed once copied: only a
+        // wave's chunks and the filled part of the arrays are resident together (peak memory)
+        let wave = rayon::current_num_threads().max(1);
+        let mut work = chunks.into_iter().zip(bases).zip(outs);
+        loop {
+            let w: Vec<_> = work.by_ref().take(wave).collect();
+            if w.is_empty() {
+                break;
+            }
+            w.into_par_iter()
+                .for_each(|((ch, b), out)| ch.copy_into(&b, out, pierce_base));
+        }
+        c
+    }
+}
+
+/// Where a chunk's outputs start in the gathered arrays: polygons, polygon points, chords,
+/// chord points and extra points before it.
+#[derive(Clone, Copy, Default)]
+struct Bases {
+    poly: u32,
+    pts: u32,
+    chord: u32,
+    chord_pts: u32,
+    pierce: u32,
+}
+
+/// A chunk's ranges of the gathered arrays (the offset arrays without their leading 0).
+struct ChunkOut<'a> {
+    face_poly: &'a mut [u32],
+    poly_off: &'a mut [u32],
+    poly_pts: &'a mut [u32],
+    face_chord: &'a mut [u32],
+    chord_off: &'a mut [u32],
+    chord_pts: &'a mut [u32],
+    chord_poly: &'a mut [u32],
+    pierce: &'a mut [Vec3],
+    pair: &'a mut [[Vec3; 2]],
+}
+
+impl Chunk {
+    /// Writes this chunk's faces into its ranges, offsets and local extra points made global.
+    fn copy_into(self, b: &Bases, out: ChunkOut, pierce_base: u32) {
+        out.pierce.copy_from_slice(&self.pierce);
+        out.pair.copy_from_slice(&self.pair);
+        let (mut poly, mut pts, mut chord, mut cpts) = (b.poly, b.pts, b.chord, b.chord_pts);
+        let (mut pi, mut ci) = (0usize, 0usize);
+        for (j, (&np, &nc)) in self.n_polys.iter().zip(&self.n_chords).enumerate() {
+            let first_poly = poly;
+            for _ in 0..np {
+                pts += self.poly_len[pi];
+                out.poly_off[pi] = pts;
+                pi += 1;
+                poly += 1;
+            }
+            out.face_poly[j] = poly;
+            for _ in 0..nc {
+                cpts += self.chord_len[ci];
+                out.chord_off[ci] = cpts;
+                out.chord_poly[ci] = first_poly + self.chord_poly[ci];
+                ci += 1;
+                chord += 1;
+            }
+            out.face_chord[j] = chord;
+        }
+        let remap = |p: u32| {
             if p & LOCAL != 0 {
-                pierce_base + base + (p & !LOCAL)
+                pierce_base + b.pierce + (p & !LOCAL)
             } else {
                 p
             }
         };
-        for ch in chunks {
-            let base = c.pierce.len() as u32;
-            c.pierce.extend_from_slice(&ch.pierce);
-            c.pair.extend_from_slice(&ch.pair);
-            let mut pl = ch.poly_len.iter();
-            let mut cl = ch.chord_len.iter();
-            let mut cp = ch.chord_poly.iter();
-            for (&np, &nc) in ch.n_polys.iter().zip(&ch.n_chords) {
-                let first_poly = *c.face_poly.last().unwrap();
-                for _ in 0..np {
-                    let l = *pl.next().unwrap();
-                    c.poly_off.push(c.poly_off.last().unwrap() + l);
-                }
-                c.face_poly.push(first_poly + np);
-                for _ in 0..nc {
-                    let l = *cl.next().unwrap();
-                    c.chord_off.push(c.chord_off.last().unwrap() + l);
-                    c.chord_poly.push(first_poly + cp.next().unwrap());
-                }
-                c.face_chord.push(c.face_chord.last().unwrap() + nc);
-            }
-            c.poly_pts
-                .extend(ch.poly_pts.iter().map(|&p| remap(p, base)));
-            c.chord_pts
-                .extend(ch.chord_pts.iter().map(|&p| remap(p, base)));
+        for (o, &p) in out.poly_pts.iter_mut().zip(&self.poly_pts) {
+            *o = remap(p);
         }
-        c
+        for (o, &p) in out.chord_pts.iter_mut().zip(&self.chord_pts) {
+            *o = remap(p);
+        }
     }
 }
