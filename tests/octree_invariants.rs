@@ -4,8 +4,8 @@
 use glam::DVec3 as Vec3;
 use octocut_octree::{
     balance, estimate, estimate_with_budget, leaf_regions, refine, refine_unbalanced, BalanceMode,
-    Domain, GapSpec, OctKey, Octree, OctreeError, RefineSpec, RegionShape, SizeRegion, SolidSide,
-    SurfaceRule, TagSel, DIRECTIONS, MAX_DEPTH,
+    Domain, GapSpec, OctKey, Octree, OctreeError, RefineSpec, RegionShape, SizeRegion, SurfaceRule,
+    TagSel, DIRECTIONS, MAX_DEPTH,
 };
 use octocut_surface::{Aabb, Surface, SurfaceIndex};
 use rand::{RngExt, SeedableRng};
@@ -199,77 +199,6 @@ fn surface_sizes_per_tag_are_met_and_the_tree_tiles_and_balances() {
     assert_eq!(at_size, [true, true]);
     brute_21(r.tree.leaves(), BalanceMode::Full).unwrap();
     assert!(r.stats.leaves > r.stats.leaves_refined);
-}
-
-#[test]
-fn balance_spares_the_solid_side_only() {
-    // a closed UV sphere (radius 0.6) refined to 1/64 of a base cell of edge 2: with the inside
-    // (then the outside) declared solid, balance leaves leaves there coarse. Checked against
-    // the analytic sphere and the polyhedron's inscribed ball: every pair that breaks 2:1 has
-    // its coarser leaf on the solid side, and the leaves of the other side are those of the
-    // fully balanced tree.
-    let (c, r) = (Vec3::new(0.05, -0.03, 0.02), 0.6);
-    let surface = uv_sphere(16, c, r, "ball");
-    // the largest ball about c inside the convex polyhedron: the nearest facet plane
-    let r_in = (0..surface.triangles.len())
-        .map(|t| {
-            let [a, b, e] = surface.corners(t);
-            let n = (b - a).cross(e - a).normalize();
-            n.dot(a - c).abs()
-        })
-        .fold(f64::INFINITY, f64::min);
-    assert!(r_in > 0.95 * r && r_in < r);
-    let index = SurfaceIndex::new(surface);
-    let d = unit_domain(2.0, -1.0, 1.0);
-    let mut spec = RefineSpec::default();
-    spec.surface.push(surf_rule(TagSel::All, 2.0 / 64.0));
-    let full = refine(&d, &index, &spec).unwrap();
-    let far = |k: OctKey| {
-        let b = d.key_box(k);
-        (b.max - c).abs().max((b.min - c).abs()).length()
-    };
-    let near = |k: OctKey| d.key_box(k).distance_squared(c).sqrt();
-    // a spared leaf lies wholly on its side of the polyhedron, so (necessarily) inside the
-    // circumscribed sphere or outside the inscribed ball; the leaves compared lie wholly on
-    // the other side with room to spare
-    let in_sphere = |k: OctKey| far(k) <= r;
-    let out_ball = |k: OctKey| near(k) >= r_in;
-    let in_ball = |k: OctKey| far(k) <= r_in;
-    let out_sphere = |k: OctKey| near(k) >= r;
-    type Test<'a> = &'a dyn Fn(OctKey) -> bool;
-    for (side, solid, fluid) in [
-        (SolidSide::Inside, &in_sphere as Test, &out_sphere as Test),
-        (SolidSide::Outside, &out_ball as Test, &in_ball as Test),
-    ] {
-        spec.solid = Some(side);
-        let sp = refine(&d, &index, &spec).unwrap();
-        sp.tree.check_tiling().unwrap();
-        assert!(
-            sp.stats.leaves < full.stats.leaves,
-            "{side:?}: {} leaves, fully balanced {}",
-            sp.stats.leaves,
-            full.stats.leaves
-        );
-        let leaves = sp.tree.leaves();
-        for (i, a) in leaves.iter().enumerate() {
-            for b in &leaves[i + 1..] {
-                if (a.level() as i32 - b.level() as i32).abs() > 1 && touching(*a, *b) {
-                    let coarse = if a.level() < b.level() { *a } else { *b };
-                    assert!(
-                        solid(coarse),
-                        "{side:?}: {a:?} and {b:?} break 2:1 outside the solid"
-                    );
-                }
-            }
-        }
-        let keep =
-            |t: &[OctKey]| -> Vec<OctKey> { t.iter().copied().filter(|&k| fluid(k)).collect() };
-        assert_eq!(
-            keep(leaves),
-            keep(full.tree.leaves()),
-            "{side:?}: fluid-side leaves changed"
-        );
-    }
 }
 
 #[test]

@@ -10,7 +10,7 @@ use crate::stages::{Hooks, Stage, StageClock, StageFigures};
 use octocut_cutcell::{cut_cells_with_regions, CutOptions, FluidSide};
 use octocut_octree::{
     estimate::DRY_RUN_LEAVES, estimate_kept, leaf_regions, refine, Domain, GapSpec, LevelPlan,
-    OctreeError, RefineSpec, RegionShape, SizeRegion, SolidSide, SurfaceRule, TagSel,
+    OctreeError, RefineSpec, RegionShape, SizeRegion, SurfaceRule, TagSel,
 };
 use octocut_surface::{
     health, load_stl_files, repair, HealthReport, RepairOptions, Surface, SurfaceIndex, Vec3,
@@ -212,12 +212,6 @@ impl Mesher {
             .collect();
         r.transition_layers = spec.transition_layers;
         r.max_leaves = Some(spec.limits.max_cells.saturating_mul(2));
-        // the body's inside (or the outside, for internal flow) is dropped: no grading there
-        r.solid = match spec.fluid {
-            FluidSpec::Outside => Some(SolidSide::Inside),
-            FluidSpec::Inside => Some(SolidSide::Outside),
-            FluidSpec::Point(..) => None,
-        };
         r
     }
 

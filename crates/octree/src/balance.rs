@@ -37,45 +37,9 @@ const CHUNK: usize = 1 << 14;
 /// ```
 pub fn balance(
     domain: &Domain,
-    leaves: Vec<OctKey>,
-    mode: BalanceMode,
-    layers: u32,
-) -> Result<Vec<OctKey>, OctreeError> {
-    balance_sparing(domain, leaves, mode, layers, None)
-}
-
-/// Decides, for a batch of leaves the balance would split, which are spared (left as they
-/// are); called once per pass with the distinct leaves of that pass's requests, in order.
-pub type Spare<'a> = &'a (dyn Fn(&[OctKey]) -> Vec<bool> + Sync);
-
-/// [`balance`], except that leaves `spared_by` picks are never split. A spared leaf still
-/// constrains its neighbours; the rule then holds between every two leaves that are not
-/// spared. For leaves the mesh drops anyway (wholly inside a solid body), which need no
-/// grading.
-///
-/// ```
-/// use octocut_octree::{balance, balance_sparing, BalanceMode, Domain, OctKey, Octree};
-/// use octocut_surface::{Aabb, Vec3};
-/// let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::ONE), 1.0).unwrap();
-/// // five levels toward the point (0.3, 0.3, 0.3)
-/// let mut leaves: Vec<OctKey> = d.base_keys();
-/// for _ in 0..5 {
-///     leaves = leaves.into_iter().flat_map(|k| {
-///         if d.key_box(k).contains_point(Vec3::splat(0.3)) { k.children().to_vec() } else { vec![k] }
-///     }).collect();
-/// }
-/// let all = balance(&d, leaves.clone(), BalanceMode::Full, 1).unwrap();
-/// // sparing every leaf leaves the tree as it was
-/// let none = balance_sparing(&d, leaves.clone(), BalanceMode::Full, 1, Some(&|k: &[OctKey]| vec![true; k.len()])).unwrap();
-/// assert_eq!(none, leaves);
-/// assert!(all.len() > leaves.len());
-/// ```
-pub fn balance_sparing(
-    domain: &Domain,
     mut leaves: Vec<OctKey>,
     mode: BalanceMode,
     layers: u32,
-    spared_by: Option<Spare>,
 ) -> Result<Vec<OctKey>, OctreeError> {
     if layers == 0 || layers > MAX_TRANSITION_LAYERS {
         return Err(OctreeError::BadLayers {
@@ -153,24 +117,6 @@ pub fn balance_sparing(
         }
         scratch_req.par_sort_unstable();
         scratch_req.dedup();
-        if let Some(spared_by) = spared_by {
-            // requests come sorted by leaf: the distinct leaves, asked in one batch
-            let mut qs: Vec<u32> = scratch_req.iter().map(|r| r.0).collect();
-            qs.dedup();
-            let keys: Vec<OctKey> = qs.iter().map(|&q| leaves[q as usize]).collect();
-            let spared = spared_by(&keys);
-            assert_eq!(spared.len(), keys.len(), "one answer per leaf");
-            let mut j = 0;
-            scratch_req.retain(|r| {
-                while qs[j] < r.0 {
-                    j += 1;
-                }
-                !spared[j]
-            });
-            if scratch_req.is_empty() {
-                continue;
-            }
-        }
         // the rebuilt array goes into a reused buffer (no fresh pages each pass)
         let (removed, added) = apply(&leaves, &scratch_req, l - 1, &mut spare);
         std::mem::swap(&mut leaves, &mut spare);
@@ -510,18 +456,6 @@ pub fn find_violation(
     mode: BalanceMode,
     layers: u32,
 ) -> Option<(usize, usize)> {
-    find_violation_except(domain, leaves, mode, layers, &|_| false)
-}
-
-/// [`find_violation`] ignoring pairs whose coarser leaf `spared` holds for (the rule
-/// [`balance_sparing`] keeps). Quadratic; for tests.
-pub fn find_violation_except(
-    domain: &Domain,
-    leaves: &[OctKey],
-    mode: BalanceMode,
-    layers: u32,
-    spared: &dyn Fn(OctKey) -> bool,
-) -> Option<(usize, usize)> {
     let _ = domain;
     let n = layers as i64;
     for (i, a) in leaves.iter().enumerate() {
@@ -553,7 +487,7 @@ pub fn find_violation_except(
                     grown_axes += 1;
                 }
             }
-            if hit && (mode == BalanceMode::Full || grown_axes <= 1) && !spared(*b) {
+            if hit && (mode == BalanceMode::Full || grown_axes <= 1) {
                 return Some((i, j));
             }
         }
@@ -593,50 +527,6 @@ mod tests {
             let probe = OctKey::new(k.anchor(), MAX_DEPTH);
             for hint in [0, 5, 63, i] {
                 assert_eq!(last_le(&keys, probe, hint), i);
-            }
-        }
-    }
-
-    #[test]
-    fn spared_leaves_stay_whole_and_the_rest_keeps_the_rule() {
-        // refinement toward (0.3, 0.3, 0.3) of a 2 x 1 x 1 box; leaves whose box lies wholly
-        // beyond x = 0.3 + 1/16 (or, second case, wholly in z > 0.25) are spared
-        let d = Domain::new(Aabb::new(Vec3::ZERO, Vec3::new(2.0, 1.0, 1.0)), 1.0).unwrap();
-        let leaves = refine_corner(&d, 6);
-        let cuts: [&(dyn Fn(&Aabb) -> bool + Sync); 2] =
-            [&|b| b.min.x >= 0.3 + 1.0 / 16.0, &|b| b.min.z >= 0.25];
-        for cut in cuts {
-            let spared = |k: OctKey| cut(&d.key_box(k));
-            let batch = |ks: &[OctKey]| ks.iter().map(|&k| spared(k)).collect::<Vec<bool>>();
-            for (mode, layers) in [(BalanceMode::Full, 1), (BalanceMode::Face, 2)] {
-                let all = balance(&d, leaves.clone(), mode, layers).unwrap();
-                let b = balance_sparing(&d, leaves.clone(), mode, layers, Some(&batch)).unwrap();
-                Octree::from_sorted_leaves(d, b.clone())
-                    .check_tiling()
-                    .unwrap();
-                assert!(b.len() < all.len(), "sparing saved nothing");
-                assert_eq!(
-                    find_violation_except(&d, &b, mode, layers, &spared),
-                    None,
-                    "{mode:?} {layers}"
-                );
-                // the unspared rule does fail: spared leaves were left too coarse
-                assert!(find_violation(&d, &b, mode, layers).is_some());
-                // spared input leaves are never split; every leaf of the full balance lies inside
-                // a leaf of this one or is one (sparing only ever splits less)
-                let out: std::collections::HashSet<OctKey> = b.iter().copied().collect();
-                for k in leaves.iter().filter(|&&k| spared(k)) {
-                    assert!(out.contains(k), "spared leaf {k:?} was split");
-                }
-                let tree = Octree::from_sorted_leaves(d, b.clone());
-                for k in &all {
-                    let i = tree.locate(k.anchor()).unwrap() as usize;
-                    assert!(
-                        b[i] == *k || b[i].is_ancestor_of(k),
-                        "{:?} split below {k:?}",
-                        b[i]
-                    );
-                }
             }
         }
     }

@@ -29,14 +29,13 @@ pub mod region;
 pub mod spec;
 pub mod tree;
 
-pub use balance::{balance, balance_sparing, Spare};
+pub use balance::balance;
 pub use domain::{Domain, DomainError};
 pub use estimate::{estimate, estimate_kept, estimate_with_budget, Estimate, KEEP_SAMPLES};
 pub use key::{OctKey, MAX_DEPTH};
 pub use refine::{leaf_regions, refine, refine_unbalanced, RefineStats, Refined};
 pub use region::{RegionShape, SizeRegion};
 pub use spec::{
-    BalanceMode, GapSpec, LevelPlan, OctreeError, PlannedLevel, RefineSpec, SolidSide, SurfaceRule,
-    TagSel,
+    BalanceMode, GapSpec, LevelPlan, OctreeError, PlannedLevel, RefineSpec, SurfaceRule, TagSel,
 };
 pub use tree::{Octree, DIRECTIONS};

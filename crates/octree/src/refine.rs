@@ -13,13 +13,13 @@
 //! leaf overlapping a region at most the region's size, and the result does not depend on the
 //! thread count (each subtree's leaves depend only on that subtree).
 
-use crate::balance::{balance_sparing, Spare};
+use crate::balance::balance;
 use crate::domain::Domain;
 use crate::feature::FeatureTest;
 use crate::gap::{find_gaps, GapPrism};
 use crate::key::{OctKey, MAX_DEPTH};
 use crate::region::SizeRegion;
-use crate::spec::{LevelPlan, OctreeError, RefineSpec, SolidSide};
+use crate::spec::{LevelPlan, OctreeError, RefineSpec};
 use crate::tree::Octree;
 use octocut_surface::tribox::triangle_box_overlap;
 use octocut_surface::{Aabb, SurfaceIndex, Vec3};
@@ -58,16 +58,7 @@ pub fn refine(
     let (leaves, gap_prisms) =
         refine_leaves(domain, index, spec, &plan, MAX_DEPTH, spec.max_leaves)?;
     let leaves_refined = leaves.len() as u64;
-    let spare = spec
-        .solid
-        .map(|side| move |keys: &[OctKey]| wholly_solid(domain, index, side, keys));
-    let leaves = balance_sparing(
-        domain,
-        leaves,
-        spec.balance,
-        spec.transition_layers,
-        spare.as_ref().map(|f| f as Spare),
-    )?;
+    let leaves = balance(domain, leaves, spec.balance, spec.transition_layers)?;
     if let Some(limit) = spec.max_leaves {
         if leaves.len() as u64 > limit {
             return Err(OctreeError::TooManyLeaves { limit });
@@ -91,45 +82,6 @@ pub fn refine(
         plan,
         stats,
     })
-}
-
-/// Which of `keys` lie wholly on the `side` of the surface: no triangle within 1% of the leaf's
-/// edge of its box, and a winding number at its centre of at least 3/4 (inside) or at most 1/4
-/// (outside). The margin around the cut stage's threshold of 1/2 keeps a leaf near a hole or
-/// another defect graded; a leaf judged wrongly here is only left coarse, never misclassified
-/// (the cut stage classifies on its own).
-fn wholly_solid(
-    domain: &Domain,
-    index: &SurfaceIndex,
-    side: SolidSide,
-    keys: &[OctKey],
-) -> Vec<bool> {
-    let clear: Vec<bool> = keys
-        .par_iter()
-        .map(|k| {
-            let b = domain.key_box(*k);
-            !index.any_triangle_in_box(&b.inflated(0.01 * b.extent().x))
-        })
-        .collect();
-    let centres: Vec<Vec3> = keys
-        .iter()
-        .zip(&clear)
-        .filter(|x| *x.1)
-        .map(|(k, _)| domain.key_box(*k).center())
-        .collect();
-    let mut w = index.winding_numbers(&centres).into_iter();
-    clear
-        .iter()
-        .map(|&c| {
-            c && {
-                let w = w.next().unwrap_or(0.5);
-                match side {
-                    SolidSide::Inside => w >= 0.75,
-                    SolidSide::Outside => w <= 0.25,
-                }
-            }
-        })
-        .collect()
 }
 
 /// The leaves the criteria ask for, before balance (sorted, tiling the domain), with the plan.

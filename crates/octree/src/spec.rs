@@ -93,20 +93,6 @@ pub struct RefineSpec {
     /// Refuse to build more leaves than this.
     #[serde(default)]
     pub max_leaves: Option<u64>,
-    /// The side of the surface the mesh drops (the solid): leaves wholly there are not split
-    /// by the balance (see [`crate::balance_sparing`]). `None` grades everywhere.
-    #[serde(default)]
-    pub solid: Option<SolidSide>,
-}
-
-/// Which side of the surface is solid (not meshed).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "lowercase")]
-pub enum SolidSide {
-    /// Inside the surface (external flow).
-    Inside,
-    /// Outside the surface (internal flow).
-    Outside,
 }
 
 fn one() -> u32 {
@@ -123,7 +109,6 @@ impl Default for RefineSpec {
             transition_layers: 1,
             balance: BalanceMode::Full,
             max_leaves: None,
-            solid: None,
         }
     }
 }
