@@ -323,6 +323,8 @@ impl Mesher {
 
         check()?;
         let refined = clock.run(hooks, Stage::Refine, "leaves", || {
+            // refinement runs faster and smaller without huge pages (benches/README.md)
+            let _plain = crate::hugepage::AdvicePaused::new();
             let r = refine(&domain, &self.index, &rspec).map_err(octree_error)?;
             let n = r.tree.leaves().len() as u64;
             Ok::<_, MeshError>((r, n))
