@@ -310,8 +310,9 @@ pub fn id_kind(max: usize) -> Kind {
 }
 
 /// Writes the bytes `fill(range, buf)` makes for consecutive ranges of `0..n` (`chunk` items
-/// each), made in parallel a few chunks at a time and written in order: the output does not
-/// depend on the thread count.
+/// each: range `k` is `k * chunk .. min((k + 1) * chunk, n)`, which callers may rely on to
+/// index per-chunk data), made in parallel a few chunks at a time and written in order: the
+/// output does not depend on the thread count.
 pub fn put_par(
     w: &mut dyn Write,
     n: usize,

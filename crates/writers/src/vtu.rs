@@ -309,31 +309,38 @@ fn write_vtu_streamed(
         }
     }
     let cf = CellFaces::new(mesh);
-    // per cell: type, connectivity length, face-stream length (0 for a hexahedron)
+    // per cell: type, connectivity length, face-stream length (0 for a hexahedron); the
+    // connectivity itself kept per chunk of cells (4 bytes an id), so that the hexahedron test
+    // and the distinct points run once a cell
     let mut types = vec![0u8; nc];
     let mut conn_len = vec![0u32; nc];
     let mut stream_len = vec![0u32; nc];
-    (
+    let conn_chunks: Vec<Vec<u32>> = (
         types.par_chunks_mut(CHUNK),
         conn_len.par_chunks_mut(CHUNK),
         stream_len.par_chunks_mut(CHUNK),
     )
         .into_par_iter()
         .enumerate()
-        .for_each(|(k, (t, cl, sl))| {
+        .map(|(k, (t, cl, sl))| {
             let (mut seen, mut table) = (Vec::new(), Vec::new());
+            let mut conn = Vec::with_capacity(8 * t.len());
             for i in 0..t.len() {
                 let c = k * CHUNK + i;
                 let faces = cf.of(c);
-                if hexahedron(mesh, faces).is_some() {
+                if let Some(h) = hexahedron(mesh, faces) {
                     (t[i], cl[i], sl[i]) = (VTK_HEXAHEDRON, 8, 0);
+                    conn.extend_from_slice(&h);
                 } else {
                     distinct_points(mesh, c, faces, &mut seen, &mut table);
                     let s: usize = faces.iter().map(|&f| 1 + mesh.face(f as usize).len()).sum();
                     (t[i], cl[i], sl[i]) = (VTK_POLYHEDRON, seen.len() as u32, 1 + s as u32);
+                    conn.extend_from_slice(&seen);
                 }
             }
-        });
+            conn
+        })
+        .collect();
     let n_conn: usize = conn_len.iter().map(|&n| n as usize).sum();
     let n_stream: usize = stream_len.iter().map(|&n| n as usize).sum();
     let has_poly = types.contains(&VTK_POLYHEDRON);
@@ -374,19 +381,15 @@ fn write_vtu_streamed(
         xa.write_stream(w, ind, pts)?;
         writeln!(w, "      </Points>")?;
         writeln!(w, "      <Cells>")?;
+        let conn_chunks = &conn_chunks;
         let connectivity = StreamArray::from_values("connectivity", 1, kind, n_conn, |w| {
+            // put_par's ranges start at multiples of CHUNK and span at most CHUNK cells: each
+            // is one chunk of the first pass
             put_par(w, nc, CHUNK, |cells, b| {
-                let (mut seen, mut table) = (Vec::new(), Vec::new());
-                for c in cells {
-                    let faces = cf.of(c);
-                    if types[c] == VTK_HEXAHEDRON {
-                        let h = hexahedron(mesh, faces).expect("classified as a hexahedron");
-                        h.iter().for_each(|&v| le(b, v as i64));
-                    } else {
-                        distinct_points(mesh, c, faces, &mut seen, &mut table);
-                        seen.iter().for_each(|&v| le(b, v as i64));
-                    }
-                }
+                debug_assert_eq!(cells.start % CHUNK, 0);
+                conn_chunks[cells.start / CHUNK]
+                    .iter()
+                    .for_each(|&v| le(b, v as i64));
             })
         });
         xa.write_stream(w, ind, connectivity)?;
