@@ -809,7 +809,13 @@ pub fn cut_cells_with_regions(
         .collect();
     // interior faces with their areas: those beside a small cell for the merge's passes, all of
     // them only if a pass needs them
-    let small = |c: u32| cell_vol[c as usize] < opts.small_cell_fraction * cell_full[c as usize];
+    let small = |c: u32| {
+        merge::is_small(
+            cell_vol[c as usize],
+            cell_full[c as usize],
+            opts.small_cell_fraction,
+        )
+    };
     let interior_faces = |keep: &(dyn Fn(u32, u32) -> bool + Sync)| -> Vec<(u32, u32, f64)> {
         (0..raw.len())
             .into_par_iter()

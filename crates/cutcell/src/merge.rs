@@ -34,6 +34,12 @@ pub(crate) struct Merged {
     pub group_volume: Vec<f64>,
 }
 
+/// A cell or group of `volume` is small beside its reference cube of volume `full`.
+#[inline]
+pub(crate) fn is_small(volume: f64, full: f64, fraction: f64) -> bool {
+    volume < fraction * full
+}
+
 /// Small cells merged into groups. The result is that of passes over all interior faces:
 /// faces between two cells that were not small matter only to a small group holding such a
 /// cell, and once one exists the passes read every face.
@@ -42,7 +48,7 @@ pub(crate) fn merge_small(inp: &MergeInput) -> Merged {
     let mut uf = UnionFind::new(n);
     let mut vol = inp.volume.to_vec();
     let mut full = inp.full.to_vec();
-    let small = |v: f64, f: f64| v < inp.fraction * f;
+    let small = |v: f64, f: f64| is_small(v, f, inp.fraction);
     // per root: the group holds a cell that was not small at the start
     let mut grown: Vec<bool> = (0..n).map(|c| !small(vol[c], full[c])).collect();
     let mut all: Option<Vec<(u32, u32, f64)>> = None;
