@@ -708,44 +708,27 @@ impl ClipCtx<'_> {
             at.chord_pts += ch.chord_pts.len() as u32;
             at.pierce += ch.pierce.len() as u32;
         }
-        let outs = {
-            use crate::concat::split_by;
-            let by = |f: fn(&Chunk) -> usize| chunks.iter().map(f).collect::<Vec<_>>().into_iter();
-            let face_poly = split_by(&mut c.face_poly[1..], by(|ch| ch.n_polys.len()));
-            let poly_off = split_by(&mut c.poly_off[1..], by(|ch| ch.poly_len.len()));
-            let poly_pts = split_by(&mut c.poly_pts, by(|ch| ch.poly_pts.len()));
-            let face_chord = split_by(&mut c.face_chord[1..], by(|ch| ch.n_chords.len()));
-            let chord_off = split_by(&mut c.chord_off[1..], by(|ch| ch.chord_len.len()));
-            let chord_pts = split_by(&mut c.chord_pts, by(|ch| ch.chord_pts.len()));
-            let chord_poly = split_by(&mut c.chord_poly, by(|ch| ch.chord_poly.len()));
-            let pierce = split_by(&mut c.pierce[npk..], by(|ch| ch.pierce.len()));
-            let pair = split_by(&mut c.pair[npk..], by(|ch| ch.pair.len()));
-            let mut outs = Vec::with_capacity(chunks.len());
-            let mut it = (
-                face_poly.into_iter(),
-                poly_off.into_iter(),
-                poly_pts.into_iter(),
-                face_chord.into_iter(),
-                chord_off.into_iter(),
-                chord_pts.into_iter(),
-                chord_poly.into_iter(),
-                pierce.into_iter(),
-                pair.into_iter(),
-            );
-            for _ in 0..chunks.len() {
-                outs.push(ChunkOut {
-                    face_poly: it.0.next().unwrap(),
-                    poly_off: it.1.next().unwrap(),
-                    poly_pts: it.2.next().unwrap(),
-                    face_chord: it.3.next().unwrap(),
-                    chord_off: it.4.next().unwrap(),
-                    chord_pts: it.5.next().unwrap(),
-                    chord_poly: it.6.next().unwrap(),
-                    pierce: it.7.next().unwrap(),
-                    pair: it.8.next().unwrap(),
-                });
-            }
-            outs
+        let outs: Vec<ChunkOut> = {
+            use crate::concat::take_front as take;
+            let (mut face_poly, mut poly_off) = (&mut c.face_poly[1..], &mut c.poly_off[1..]);
+            let (mut poly_pts, mut face_chord) = (&mut c.poly_pts[..], &mut c.face_chord[1..]);
+            let (mut chord_off, mut chord_pts) = (&mut c.chord_off[1..], &mut c.chord_pts[..]);
+            let mut chord_poly = &mut c.chord_poly[..];
+            let (mut pierce, mut pair) = (&mut c.pierce[npk..], &mut c.pair[npk..]);
+            chunks
+                .iter()
+                .map(|ch| ChunkOut {
+                    face_poly: take(&mut face_poly, ch.n_polys.len()),
+                    poly_off: take(&mut poly_off, ch.poly_len.len()),
+                    poly_pts: take(&mut poly_pts, ch.poly_pts.len()),
+                    face_chord: take(&mut face_chord, ch.n_chords.len()),
+                    chord_off: take(&mut chord_off, ch.chord_len.len()),
+                    chord_pts: take(&mut chord_pts, ch.chord_pts.len()),
+                    chord_poly: take(&mut chord_poly, ch.chord_poly.len()),
+                    pierce: take(&mut pierce, ch.pierce.len()),
+                    pair: take(&mut pair, ch.pair.len()),
+                })
+                .collect()
         };
         // a wave of one chunk per thread at a time, each chunk freed once copied: only a
         // wave's chunks and the filled part of the arrays are resident together (peak memory)

@@ -9,13 +9,14 @@ use rayon::prelude::*;
 
 /// Splits `out` into consecutive slices of the given lengths.
 pub(crate) fn split_by<T>(mut out: &mut [T], lens: impl Iterator<Item = usize>) -> Vec<&mut [T]> {
-    let mut v = Vec::new();
-    for n in lens {
-        let (a, b) = std::mem::take(&mut out).split_at_mut(n);
-        v.push(a);
-        out = b;
-    }
-    v
+    lens.map(|n| take_front(&mut out, n)).collect()
+}
+
+/// The first `n` items of `rest`, which keeps the others.
+pub(crate) fn take_front<'a, T>(rest: &mut &'a mut [T], n: usize) -> &'a mut [T] {
+    let (a, b) = std::mem::take(rest).split_at_mut(n);
+    *rest = b;
+    a
 }
 
 /// The concatenation of `parts`, in order.

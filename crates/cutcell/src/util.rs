@@ -1,8 +1,8 @@
 //! A union-find over `0..n` (Tarjan 1975) that always keeps the smaller index as the root, so
 //! components are named by their first member (deterministic whatever the thread count), and
-//! [`gather_chunk`], the chunk size of the stage's gathered parallel maps, [`mix`], the hash of
-//! the stage's small open-addressing tables, and [`counting_sort_by`], a stable counting sort
-//! of ids by a small integer key.
+//! [`gather_chunk`], the chunk size of the stage's gathered parallel maps, [`mix`] (the
+//! surface crate's hash) for the stage's small open-addressing tables, and
+//! [`counting_sort_by`], a stable counting sort of ids by a small integer key.
 
 /// Disjoint sets over `0..n` with the smallest member as root.
 #[derive(Clone, Debug)]
@@ -52,15 +52,7 @@ pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
     (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
 }
 
-/// The 64-bit finalizer of SplitMix64 (Steele, Lea, Flood 2014, "Fast splittable pseudorandom
-/// number generators"): every input bit affects every output bit.
-#[inline]
-pub(crate) fn mix(mut z: u64) -> u64 {
-    z = z.wrapping_add(0x9e37_79b9_7f4a_7c15);
-    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-    z ^ (z >> 31)
-}
+pub(crate) use octocut_surface::hash::mix;
 
 /// `ids` reordered by `key(id)` (at most `max_key`), keeping the given order among equal keys
 /// (counting sort, common practice; one histogram, one prefix sum, one scatter).

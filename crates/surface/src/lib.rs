@@ -45,6 +45,7 @@ pub mod bvh;
 pub mod crossing;
 pub mod error;
 pub mod geom;
+pub mod hash;
 pub mod health;
 pub mod index;
 pub mod predicates;

@@ -27,6 +27,7 @@
 
 use crate::geometry::{cell_volume_centroid_with, polygon_area_centroid, CellFaces, CellGeometry};
 use crate::mesh::VolumeMesh;
+use octocut_surface::hash::mix;
 use octocut_surface::{Aabb, Vec3};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -1000,14 +1001,6 @@ pub(crate) fn chunked_sum(range: std::ops::Range<usize>, f: impl Fn(usize) -> f6
         })
         .collect();
     parts.into_iter().sum()
-}
-
-/// The SplitMix64 finaliser (Steele, Lea and Flood 2014): a bijective 64-bit mix.
-fn mix(mut z: u64) -> u64 {
-    z = z.wrapping_add(0x9e37_79b9_7f4a_7c15);
-    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-    z ^ (z >> 31)
 }
 
 fn vertex_average(points: &[Vec3], vs: &[u32]) -> Vec3 {
