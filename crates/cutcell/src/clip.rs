@@ -19,7 +19,7 @@
 //! exit crossing to entry crossing, as the polygon traverses them).
 
 use crate::crossing::{EdgeTable, T_EPS};
-use crate::topology::Topology;
+use crate::topology::{FaceBlock, Topology};
 use octocut_octree::Domain;
 use octocut_surface::{SurfaceIndex, Vec3};
 use rayon::prelude::*;
@@ -267,11 +267,20 @@ impl ClipCtx<'_> {
     /// Are the `k` polygons of face `f` pushed since `mark` pairwise apart (no edges meeting,
     /// none inside another, no vertex within `1e-7` face edges of another's edge)? Signs by
     /// the exact 2D orientation predicate in the face plane.
-    fn disjoint(&self, f: u32, pk: &Pokes, out: &Chunk, mark: &Mark, k: usize) -> bool {
+    /// `pts` is the face's polygon.
+    #[allow(clippy::too_many_arguments)]
+    fn disjoint(
+        &self,
+        f: u32,
+        pts: &[u32],
+        pk: &Pokes,
+        out: &Chunk,
+        mark: &Mark,
+        k: usize,
+    ) -> bool {
         use octocut_surface::predicates::orient2d;
         let ax = self.topo.faces[f as usize].axis();
         let (u, v) = ((ax + 1) % 3, (ax + 2) % 3);
-        let pts = self.topo.face(f);
         let h = (self.gpos(pts[0]) - self.gpos(pts[1])).length();
         let tol = 1e-7 * h;
         let mut polys: Vec<Vec<[f64; 2]>> = Vec::with_capacity(k);
@@ -461,15 +470,16 @@ impl ClipCtx<'_> {
         found.push((p, [nx, ny]));
     }
 
+    /// Clips face `f`, whose polygon is `pts`.
     fn clip_face(
         &self,
         f: u32,
+        pts: &[u32],
         out: &mut Chunk,
         runs: &mut Vec<Run>,
         aug: &mut Vec<u32>,
         pk: &Pokes,
     ) {
-        let pts = self.topo.face(f);
         // the vertex walk, with a virtual vertex of the other class inside every poke edge
         aug.clear();
         if !pk.edge.is_empty() && pts.iter().any(|&p| pk.vertex[p as usize]) {
@@ -642,7 +652,7 @@ impl ClipCtx<'_> {
                     chord(out, r.exit, r.entry, j as u32, false, thin(r), near);
                     out.poly_len.push((out.poly_pts.len() - before) as u32);
                 }
-                if near || !runs.iter().any(thin) || self.disjoint(f, pk, out, &mark, k) {
+                if near || !runs.iter().any(thin) || self.disjoint(f, pts, pk, out, &mark, k) {
                     break;
                 }
                 out.rollback(&mark);
@@ -653,17 +663,26 @@ impl ClipCtx<'_> {
         }
     }
 
-    pub fn run(&self, pierce_base: u32) -> Clip {
+    /// Clips every face; `blocks` are the topology's face polygons (`Topology::blocks`, blocks
+    /// of `1 << block_bits` faces), each freed once its faces are clipped, so that the
+    /// polygons and the clipped faces are never resident together (peak memory).
+    pub fn run(&self, pierce_base: u32, blocks: Vec<FaceBlock>, block_bits: u32) -> Clip {
         let nf = self.topo.faces.len() as u32;
+        assert_eq!(
+            blocks.iter().map(FaceBlock::len).sum::<usize>(),
+            nf as usize
+        );
         let pk = self.find_pokes(pierce_base);
-        let ids: Vec<u32> = (0..nf).collect();
-        let chunks: Vec<Chunk> = ids
-            .par_chunks(crate::util::gather_chunk(nf as usize, 2048, 1 << 19))
-            .map(|fs| {
+        let chunks: Vec<Chunk> = blocks
+            .into_par_iter()
+            .enumerate()
+            .map(|(b, blk)| {
                 let mut out = Chunk::default();
                 let (mut runs, mut aug) = (Vec::new(), Vec::new());
-                for &f in fs {
-                    self.clip_face(f, &mut out, &mut runs, &mut aug, &pk);
+                let f0 = (b as u32) << block_bits;
+                for j in 0..blk.len() {
+                    let f = f0 + j as u32;
+                    self.clip_face(f, blk.face(j), &mut out, &mut runs, &mut aug, &pk);
                 }
                 out
             })

@@ -358,6 +358,33 @@ pub fn cut_cells_with_regions(
         return Err(CutError::TooManyPoints(pierce_base));
     }
     let pierce_base = pierce_base as u32;
+    // leaves with a face edge that the surface crosses more than once (warned about below),
+    // read off the face polygons before the clip consumes them
+    let any_multi = edges.hits.iter().any(|&h| h >= 2);
+    let mut multi_edge = vec![false; if any_multi { leaves.len() } else { 0 }];
+    if any_multi {
+        let face_multi: Vec<bool> = (0..topo.faces.len() as u32)
+            .into_par_iter()
+            .with_min_len(1024)
+            .map(|f| {
+                let p = topo.face(f);
+                (0..p.len()).any(|i| {
+                    edges
+                        .find(p[i], p[(i + 1) % p.len()])
+                        .is_some_and(|e| edges.hits[e] >= 2)
+                })
+            })
+            .collect();
+        for (face, &m) in topo.faces.iter().zip(&face_multi) {
+            if m {
+                multi_edge[face.e() as usize] = true;
+                if !face.is_boundary() {
+                    multi_edge[face.n as usize] = true;
+                }
+            }
+        }
+    }
+    let blocks = topo.take_face_blocks();
     let mut clip = ClipCtx {
         domain,
         index,
@@ -369,7 +396,7 @@ pub fn cut_cells_with_regions(
         n_grid,
         pierce_cuts: opts.pierce_points,
     }
-    .run(pierce_base);
+    .run(pierce_base, blocks, topo.block_bits);
     // a uniform leaf beside a face that a poke edge cuts (see `clip`) is cut
     if !clip.poke_plane.is_empty() {
         for (f, face) in topo.faces.iter().enumerate() {
@@ -387,15 +414,10 @@ pub fn cut_cells_with_regions(
     report.solid_leaves = status.iter().filter(|&&s| s == SOLID).count();
     report.cut_leaves = status.iter().filter(|&&s| s == CUT).count();
     tmark("clip");
-    // face lists of the leaves closed below or checked for warnings
-    topo.build_leaf_faces(leaves.len(), |l| {
-        let s = status[l as usize];
-        s == CUT || (s != SOLID && touched.is(l))
-    });
+    // face lists of the leaves closed below
+    topo.build_leaf_faces(leaves.len(), |l| status[l as usize] == CUT);
     tmark("leaffaces");
-    // cells to warn about, read off the face polygons, which are freed then: the closing
-    // below needs only the clip's polygons (peak memory)
-    let any_multi = edges.hits.iter().any(|&h| h >= 2);
+    // cells to warn about
     let multi: Vec<u8> = (0..leaves.len() as u32)
         .into_par_iter()
         .with_min_len(256)
@@ -403,16 +425,8 @@ pub fn cut_cells_with_regions(
             if status[l as usize] == SOLID || !touched.is(l) {
                 return 0;
             }
-            let faces = if any_multi { topo.faces_of(l) } else { &[] };
-            for &f in faces {
-                let p = topo.face(f);
-                for i in 0..p.len() {
-                    if let Some(e) = edges.find(p[i], p[(i + 1) % p.len()]) {
-                        if edges.hits[e] >= 2 {
-                            return 1;
-                        }
-                    }
-                }
+            if multi_edge.get(l as usize) == Some(&true) {
+                return 1;
             }
             if status[l as usize] == FLUID {
                 // a surface vertex deep inside a uniform leaf: a body part smaller than the cell
@@ -433,7 +447,7 @@ pub fn cut_cells_with_regions(
             0
         })
         .collect();
-    topo.release_face_polygons();
+    drop(multi_edge);
     let pts = Points {
         domain,
         grid: &topo.grid,

@@ -9,7 +9,7 @@
 //! Invariants: faces are oriented counter-clockwise seen from outside the enumerating leaf `e`;
 //! every leaf's faces tile its boundary exactly once. Needs fewer than 2^29 leaves (slot ids).
 
-use crate::concat::{concat, offsets};
+use crate::concat::concat;
 use crate::util::counting_sort_by;
 use octocut_octree::{OctKey, Octree};
 use rayon::prelude::*;
@@ -62,8 +62,9 @@ pub(crate) struct Topology {
     /// Point ids of each leaf's 8 corners (bit 0 x, bit 1 y, bit 2 z).
     pub corners: Vec<[u32; 8]>,
     pub faces: Vec<EFace>,
-    pub face_off: Vec<u32>,
-    pub face_pts: Vec<u32>,
+    /// The face polygons, in blocks of `1 << block_bits` consecutive faces.
+    pub blocks: Vec<FaceBlock>,
+    pub block_bits: u32,
     pub leaf_off: Vec<u32>,
     pub leaf_faces: Vec<u32>,
 }
@@ -88,15 +89,16 @@ impl Topology {
             [self.leaf_off[leaf as usize] as usize..self.leaf_off[leaf as usize + 1] as usize]
     }
 
+    /// The polygon of face `f` (panics once the blocks are taken).
     pub fn face(&self, f: u32) -> &[u32] {
-        &self.face_pts[self.face_off[f as usize] as usize..self.face_off[f as usize + 1] as usize]
+        self.blocks[(f >> self.block_bits) as usize]
+            .face((f & ((1 << self.block_bits) - 1)) as usize)
     }
 
-    /// Frees the face polygons (`face`), keeping the face list, the leaf face lists and the
-    /// grid.
-    pub fn release_face_polygons(&mut self) {
-        self.face_off = Vec::new();
-        self.face_pts = Vec::new();
+    /// Takes the face polygons out (`face` panics afterwards), keeping the face list, the
+    /// leaf face lists and the grid: the clip frees each block once its faces are clipped.
+    pub fn take_face_blocks(&mut self) -> Vec<FaceBlock> {
+        std::mem::take(&mut self.blocks)
     }
 
     /// Frees the vertex data (coordinates, corners, face polygons, leaf face lists), keeping
@@ -104,8 +106,7 @@ impl Topology {
     pub fn release_vertex_data(&mut self) {
         self.grid = Vec::new();
         self.corners = Vec::new();
-        self.face_off = Vec::new();
-        self.face_pts = Vec::new();
+        self.blocks = Vec::new();
         self.leaf_off = Vec::new();
         self.leaf_faces = Vec::new();
     }
@@ -175,20 +176,18 @@ impl Topology {
                     acc.2.push(c.2);
                     acc
                 });
-        let face_pts = concat(&pts);
-        drop(pts);
-        let face_off = offsets(&lens);
-        drop(lens);
         let faces = concat(&face_parts);
         drop(face_parts);
+        let block_bits = block_bits(faces.len());
+        let blocks = face_blocks(lens, pts, block_bits);
         crate::tmark("topo.concat");
         crate::tmark("topo.faces");
         Topology {
             grid,
             corners,
             faces,
-            face_off,
-            face_pts,
+            blocks,
+            block_bits,
             leaf_off: Vec::new(),
             leaf_faces: Vec::new(),
         }
@@ -230,6 +229,99 @@ impl Topology {
         self.leaf_off = leaf_off;
         self.leaf_faces = leaf_faces;
     }
+}
+
+/// The polygons of `1 << block_bits` consecutive faces (fewer in the last block), CSR in one
+/// allocation: `n + 1` offsets local to the block, then the points (one large block is
+/// returned to the system when freed, not left as holes in the heap).
+///
+/// ```ignore
+/// let b = FaceBlock::new(&[0, 4, 9], &(0..9).collect::<Vec<_>>());
+/// assert_eq!((b.len(), b.face(1)), (2, &[4, 5, 6, 7, 8][..]));
+/// ```
+#[derive(Debug, Default)]
+pub(crate) struct FaceBlock {
+    n: usize,
+    data: Vec<u32>,
+}
+
+impl FaceBlock {
+    #[cfg(test)]
+    pub fn new(off: &[u32], pts: &[u32]) -> FaceBlock {
+        let mut data = off.to_vec();
+        data.extend_from_slice(pts);
+        FaceBlock {
+            n: off.len() - 1,
+            data,
+        }
+    }
+    pub fn len(&self) -> usize {
+        self.n
+    }
+    pub fn face(&self, j: usize) -> &[u32] {
+        let b = self.n + 1;
+        &self.data[b + self.data[j] as usize..b + self.data[j + 1] as usize]
+    }
+}
+
+/// Block size of `nf` face polygons: a power of two near the parallel chunk size (at least
+/// 2048), so that a block is one unit of the clip's parallel work.
+fn block_bits(nf: usize) -> u32 {
+    let c = crate::util::gather_chunk(nf, 2048, 1 << 19);
+    usize::BITS - 1 - c.leading_zeros()
+}
+
+/// The polygons of the faces given per chunk (`lens[i]` and `pts[i]` of chunk `i`, chunks in
+/// face order) regrouped into blocks of `1 << bits` faces, built in parallel.
+fn face_blocks(lens: Vec<Vec<u32>>, pts: Vec<Vec<u32>>, bits: u32) -> Vec<FaceBlock> {
+    // each chunk's first face
+    let mut first = Vec::with_capacity(lens.len() + 1);
+    first.push(0usize);
+    for l in &lens {
+        first.push(first.last().unwrap() + l.len());
+    }
+    let nf = *first.last().unwrap();
+    // the (chunk, local first face, local end face, first point) pieces of faces f0..f1
+    let pieces = |f0: usize, f1: usize| {
+        let mut out = Vec::new();
+        let mut c = first.partition_point(|&s| s <= f0) - 1;
+        let mut f = f0;
+        while f < f1 {
+            if f < first[c + 1] {
+                let (j0, j1) = (f - first[c], f1.min(first[c + 1]) - first[c]);
+                let p0: u32 = lens[c][..j0].iter().sum();
+                out.push((c, j0, j1, p0 as usize));
+                f = first[c] + j1;
+            }
+            c += 1;
+        }
+        out
+    };
+    (0..nf.div_ceil(1 << bits))
+        .into_par_iter()
+        .map(|b| {
+            let (f0, f1) = (b << bits, ((b + 1) << bits).min(nf));
+            let ps = pieces(f0, f1);
+            let n: u32 = ps
+                .iter()
+                .map(|&(c, j0, j1, _)| lens[c][j0..j1].iter().sum::<u32>())
+                .sum();
+            let mut data = Vec::with_capacity(f1 - f0 + 1 + n as usize);
+            data.push(0);
+            let mut at = 0u32;
+            for &(c, j0, j1, _) in &ps {
+                for &l in &lens[c][j0..j1] {
+                    at += l;
+                    data.push(at);
+                }
+            }
+            for (c, j0, j1, p0) in ps {
+                let len: u32 = lens[c][j0..j1].iter().sum();
+                data.extend_from_slice(&pts[c][p0..p0 + len as usize]);
+            }
+            FaceBlock { n: f1 - f0, data }
+        })
+        .collect()
 }
 
 /// Mesh vertices sorted along each axis: `order[a]` lists point ids by (the two other
@@ -470,6 +562,55 @@ mod tests {
     use crate::test_support::{icosphere, refined_tree};
     use octocut_octree::Domain;
     use octocut_surface::{Aabb, SurfaceIndex, Vec3};
+
+    #[test]
+    fn face_blocks_regroup_the_chunks_in_face_order() {
+        // reference: the serial concatenation of the chunks' polygons (common practice)
+        let mut rng = 12345u64;
+        let mut next = |m: u64| {
+            rng = crate::util::mix(rng);
+            rng % m
+        };
+        for trial in 0..40 {
+            let nchunks = 1 + next(6) as usize;
+            let mut lens: Vec<Vec<u32>> = Vec::new();
+            let mut pts: Vec<Vec<u32>> = Vec::new();
+            let mut want: Vec<Vec<u32>> = Vec::new();
+            let mut id = 0u32;
+            for _ in 0..nchunks {
+                // empty chunks too
+                let nf = if next(4) == 0 { 0 } else { next(40) as usize };
+                let (mut l, mut p) = (Vec::new(), Vec::new());
+                for _ in 0..nf {
+                    let n = 3 + next(6) as u32;
+                    let poly: Vec<u32> = (id..id + n).collect();
+                    id += n;
+                    l.push(n);
+                    p.extend_from_slice(&poly);
+                    want.push(poly);
+                }
+                lens.push(l);
+                pts.push(p);
+            }
+            let bits = (trial % 5) as u32;
+            let blocks = face_blocks(lens, pts, bits);
+            assert_eq!(
+                blocks.len(),
+                want.len().div_ceil(1 << bits),
+                "trial {trial}"
+            );
+            let got: Vec<Vec<u32>> = blocks
+                .iter()
+                .flat_map(|b| (0..b.len()).map(|j| b.face(j).to_vec()))
+                .collect();
+            assert_eq!(got, want, "trial {trial}");
+            assert!(blocks[..blocks.len().saturating_sub(1)]
+                .iter()
+                .all(|b| b.len() == 1 << bits));
+        }
+        let b = FaceBlock::new(&[0, 4, 9], &(0..9).collect::<Vec<_>>());
+        assert_eq!((b.len(), b.face(1)), (2, &[4, 5, 6, 7, 8][..]));
+    }
 
     #[test]
     fn faces_list_exactly_the_vertices_on_their_edges() {
