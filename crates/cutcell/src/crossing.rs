@@ -219,7 +219,8 @@ impl EdgeHits {
 
 /// Crossings of every elementary edge the clipping may need, keyed by the edge's point ids.
 pub(crate) struct EdgeTable {
-    /// Sorted keys `lo << 32 | hi` of the queried edges.
+    /// Sorted keys `lo << 32 | hi` of the queried edges that the surface meets or whose end
+    /// classes differ (`find` gives `None` for any other edge).
     pub keys: Vec<u64>,
     /// Distinct surface hits per edge (saturating at 255).
     pub hits: Vec<u8>,
@@ -260,15 +261,22 @@ impl EdgeTable {
                 edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e as usize))
             })
             .collect();
-        let hits = (0..eh.keys.len())
-            .map(|e| (eh.off[e + 1] - eh.off[e]).min(255) as u8)
-            .collect();
-        let mut cross = vec![u32::MAX; eh.keys.len()];
+        // only edges that the surface meets or whose classes differ are ever looked up (a
+        // crossing, a poke, a warning): the others leave the table (peak memory)
+        let mut cross_all = vec![u32::MAX; eh.keys.len()];
         for (c, &e) in crossed.iter().enumerate() {
-            cross[e as usize] = c as u32;
+            cross_all[e as usize] = c as u32;
         }
+        drop(crossed);
+        let hits_of = |e: usize| (eh.off[e + 1] - eh.off[e]).min(255) as u8;
+        let keep: Vec<usize> = (0..eh.keys.len())
+            .filter(|&e| cross_all[e] != u32::MAX || hits_of(e) > 0)
+            .collect();
+        let keys = keep.iter().map(|&e| eh.keys[e]).collect();
+        let hits = keep.iter().map(|&e| hits_of(e)).collect();
+        let cross = keep.iter().map(|&e| cross_all[e]).collect();
         EdgeTable {
-            keys: eh.keys,
+            keys,
             hits,
             cross,
             crossings,
