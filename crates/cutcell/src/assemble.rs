@@ -135,6 +135,10 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
             (ca != u32::MAX && f.b[i_] == BOUNDARY).then_some((f.kind[i_], ca, i))
         })
         .collect();
+    // only the vertex lists are read from here on (memory at the stage's late peak)
+    inp.faces.a = Vec::new();
+    inp.faces.b = Vec::new();
+    inp.faces.kind = Vec::new();
     let mut tags_used: Vec<u32> = boundary
         .iter()
         .filter(|b| b.0 >= 6)
@@ -176,14 +180,7 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
     }
     drop(interior);
     drop(boundary);
-    // only the vertex lists are read from here on
-    let f = {
-        let raw = &mut inp.faces;
-        raw.a = Vec::new();
-        raw.b = Vec::new();
-        raw.kind = Vec::new();
-        &inp.faces
-    };
+    let f = &inp.faces;
     // vertex lists copied in parallel, a run of faces at a time (each run's vertices are one
     // contiguous range)
     const RUN: usize = 4096;
