@@ -105,36 +105,27 @@ pub(crate) struct AssembleInput<'a> {
 pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
     let f = &inp.faces;
     // interior (owner, neighbour, raw face, reversed); boundary (kind, then patch, owner, raw face)
-    let mut interior: Vec<(u32, u32, u32, bool)> = (0..f.len() as u32)
-        .into_par_iter()
-        .with_min_len(4096)
-        .filter_map(|i| {
-            let i_ = i as usize;
-            let ca = inp.cell_id[f.a[i_] as usize];
-            if ca == u32::MAX || f.b[i_] == BOUNDARY {
-                return None;
-            }
-            let cb = inp.cell_id[f.b[i_] as usize];
-            if cb == u32::MAX || cb == ca {
-                return None;
-            }
-            // owner is the lower cell id; the polygon is reversed when it points into it
-            Some(if ca < cb {
-                (ca, cb, i, false)
-            } else {
-                (cb, ca, i, true)
-            })
+    let mut interior: Vec<(u32, u32, u32, bool)> = crate::concat::filter_map_sized(f.len(), |i_| {
+        let i = i_ as u32;
+        let ca = inp.cell_id[f.a[i_] as usize];
+        if ca == u32::MAX || f.b[i_] == BOUNDARY {
+            return None;
+        }
+        let cb = inp.cell_id[f.b[i_] as usize];
+        if cb == u32::MAX || cb == ca {
+            return None;
+        }
+        // owner is the lower cell id; the polygon is reversed when it points into it
+        Some(if ca < cb {
+            (ca, cb, i, false)
+        } else {
+            (cb, ca, i, true)
         })
-        .collect();
-    let boundary: Vec<(u32, u32, u32)> = (0..f.len() as u32)
-        .into_par_iter()
-        .with_min_len(4096)
-        .filter_map(|i| {
-            let i_ = i as usize;
-            let ca = inp.cell_id[f.a[i_] as usize];
-            (ca != u32::MAX && f.b[i_] == BOUNDARY).then_some((f.kind[i_], ca, i))
-        })
-        .collect();
+    });
+    let boundary: Vec<(u32, u32, u32)> = crate::concat::filter_map_sized(f.len(), |i_| {
+        let ca = inp.cell_id[f.a[i_] as usize];
+        (ca != u32::MAX && f.b[i_] == BOUNDARY).then_some((f.kind[i_], ca, i_ as u32))
+    });
     // only the vertex lists are read from here on (memory at the stage's late peak)
     inp.faces.a = Vec::new();
     inp.faces.b = Vec::new();

@@ -34,6 +34,37 @@ pub(crate) fn concat<T: Copy + Default + Send + Sync>(parts: &[Vec<T>]) -> Vec<T
     out
 }
 
+/// `(0..n).filter_map(f)` collected in order, in parallel, at the size of the result: a first
+/// pass counts the kept items of each run of indices, the second writes them in place. A
+/// parallel `collect` of a filtered iterator gathers a list of vectors first, so that the
+/// result is briefly resident twice (peak memory); here `f` runs twice instead.
+///
+/// ```ignore
+/// assert_eq!(filter_map_sized(10, |i| (i % 3 == 0).then_some(i)), vec![0, 3, 6, 9]);
+/// ```
+pub(crate) fn filter_map_sized<T: Copy + Default + Send + Sync>(
+    n: usize,
+    f: impl Fn(usize) -> Option<T> + Sync,
+) -> Vec<T> {
+    const RUN: usize = 1 << 14;
+    let runs = n.div_ceil(RUN);
+    let range = |r: usize| r * RUN..((r + 1) * RUN).min(n);
+    let counts: Vec<usize> = (0..runs)
+        .into_par_iter()
+        .map(|r| range(r).filter(|&i| f(i).is_some()).count())
+        .collect();
+    let mut out = vec![T::default(); counts.iter().sum()];
+    split_by(&mut out, counts.iter().copied())
+        .into_par_iter()
+        .enumerate()
+        .for_each(|(r, o)| {
+            for (x, y) in o.iter_mut().zip(range(r).filter_map(&f)) {
+                *x = y;
+            }
+        });
+    out
+}
+
 /// CSR offsets of the lengths `lens` (all chunks in order): `[0, l0, l0 + l1, ...]`.
 pub(crate) fn offsets(lens: &[Vec<u32>]) -> Vec<u32> {
     let n: usize = lens.iter().map(Vec::len).sum();
@@ -76,5 +107,15 @@ mod tests {
         }
         assert_eq!(offsets(&parts), want);
         assert_eq!(offsets(&[]), vec![0]);
+    }
+
+    #[test]
+    fn sized_filter_equals_the_serial_filter() {
+        // reference: Iterator::filter_map (the definition), across run boundaries
+        for n in [0usize, 1, 5, (1 << 14) - 1, 1 << 14, 3 * (1 << 14) + 17] {
+            let f = |i: usize| (crate::util::mix(i as u64) % 3 == 0).then_some((i, i as u32 ^ 7));
+            let want: Vec<(usize, u32)> = (0..n).filter_map(f).collect();
+            assert_eq!(filter_map_sized(n, f), want, "n {n}");
+        }
     }
 }

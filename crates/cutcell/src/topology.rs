@@ -272,8 +272,10 @@ fn block_bits(nf: usize) -> u32 {
 }
 
 /// The polygons of the faces given per chunk (`lens[i]` and `pts[i]` of chunk `i`, chunks in
-/// face order) regrouped into blocks of `1 << bits` faces, built in parallel.
-fn face_blocks(lens: Vec<Vec<u32>>, pts: Vec<Vec<u32>>, bits: u32) -> Vec<FaceBlock> {
+/// face order) regrouped into blocks of `1 << bits` faces: built in parallel waves of one
+/// block per thread, each chunk freed once the blocks after it no longer read it, so that
+/// the chunks and the blocks are never all resident together (peak memory).
+fn face_blocks(mut lens: Vec<Vec<u32>>, mut pts: Vec<Vec<u32>>, bits: u32) -> Vec<FaceBlock> {
     // each chunk's first face
     let mut first = Vec::with_capacity(lens.len() + 1);
     first.push(0usize);
@@ -282,7 +284,7 @@ fn face_blocks(lens: Vec<Vec<u32>>, pts: Vec<Vec<u32>>, bits: u32) -> Vec<FaceBl
     }
     let nf = *first.last().unwrap();
     // the (chunk, local first face, local end face, first point) pieces of faces f0..f1
-    let pieces = |f0: usize, f1: usize| {
+    let pieces = |lens: &[Vec<u32>], f0: usize, f1: usize| {
         let mut out = Vec::new();
         let mut c = first.partition_point(|&s| s <= f0) - 1;
         let mut f = f0;
@@ -297,31 +299,48 @@ fn face_blocks(lens: Vec<Vec<u32>>, pts: Vec<Vec<u32>>, bits: u32) -> Vec<FaceBl
         }
         out
     };
-    (0..nf.div_ceil(1 << bits))
-        .into_par_iter()
-        .map(|b| {
-            let (f0, f1) = (b << bits, ((b + 1) << bits).min(nf));
-            let ps = pieces(f0, f1);
-            let n: u32 = ps
-                .iter()
-                .map(|&(c, j0, j1, _)| lens[c][j0..j1].iter().sum::<u32>())
-                .sum();
-            let mut data = Vec::with_capacity(f1 - f0 + 1 + n as usize);
-            data.push(0);
-            let mut at = 0u32;
-            for &(c, j0, j1, _) in &ps {
-                for &l in &lens[c][j0..j1] {
-                    at += l;
-                    data.push(at);
-                }
+    let block = |lens: &[Vec<u32>], pts: &[Vec<u32>], b: usize| {
+        let (f0, f1) = (b << bits, ((b + 1) << bits).min(nf));
+        let ps = pieces(lens, f0, f1);
+        let n: u32 = ps
+            .iter()
+            .map(|&(c, j0, j1, _)| lens[c][j0..j1].iter().sum::<u32>())
+            .sum();
+        let mut data = Vec::with_capacity(f1 - f0 + 1 + n as usize);
+        data.push(0);
+        let mut at = 0u32;
+        for &(c, j0, j1, _) in &ps {
+            for &l in &lens[c][j0..j1] {
+                at += l;
+                data.push(at);
             }
-            for (c, j0, j1, p0) in ps {
-                let len: u32 = lens[c][j0..j1].iter().sum();
-                data.extend_from_slice(&pts[c][p0..p0 + len as usize]);
-            }
-            FaceBlock { n: f1 - f0, data }
-        })
-        .collect()
+        }
+        for (c, j0, j1, p0) in ps {
+            let len: u32 = lens[c][j0..j1].iter().sum();
+            data.extend_from_slice(&pts[c][p0..p0 + len as usize]);
+        }
+        FaceBlock { n: f1 - f0, data }
+    };
+    let nb = nf.div_ceil(1 << bits);
+    let wave = rayon::current_num_threads().max(1);
+    let mut out: Vec<FaceBlock> = Vec::with_capacity(nb);
+    let mut done = 0; // chunks freed
+    while out.len() < nb {
+        let (b0, b1) = (out.len(), (out.len() + wave).min(nb));
+        let w: Vec<FaceBlock> = (b0..b1)
+            .into_par_iter()
+            .map(|b| block(&lens, &pts, b))
+            .collect();
+        out.extend(w);
+        // chunks that end at or before the next block's first face
+        let next = (b1 << bits).min(nf);
+        while done < lens.len() && first[done + 1] <= next {
+            lens[done] = Vec::new();
+            pts[done] = Vec::new();
+            done += 1;
+        }
+    }
+    out
 }
 
 /// Mesh vertices sorted along each axis: `order[a]` lists point ids by (the two other
