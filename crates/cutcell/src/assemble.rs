@@ -176,14 +176,33 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
     // contiguous range)
     const RUN: usize = 4096;
     let len = |i: u32| f.face(i as usize).len() as u32;
-    let run_lens: Vec<Vec<u32>> = order
+    // offsets: each run's total, then the runs filled in parallel from their starts (no list
+    // of lengths kept: memory at the stage's late peak)
+    let run_total: Vec<u32> = order
         .par_chunks(RUN)
-        .map(|r| r.iter().map(|&(i, _)| len(i)).collect())
+        .map(|r| r.iter().map(|&(i, _)| len(i)).sum())
         .collect();
-    let face_offsets = crate::concat::offsets(&run_lens);
-    let run_pts = run_lens
-        .iter()
-        .map(|l| l.iter().map(|&x| x as usize).sum::<usize>());
+    let mut face_offsets = vec![0u32; order.len() + 1];
+    {
+        let mut start = Vec::with_capacity(run_total.len());
+        let mut acc = 0u32;
+        for &t in &run_total {
+            start.push(acc);
+            acc += t;
+        }
+        face_offsets[order.len()] = acc;
+        face_offsets[1..]
+            .par_chunks_mut(RUN)
+            .zip(order.par_chunks(RUN))
+            .zip(start)
+            .for_each(|((o, r), mut a)| {
+                for (x, &(i, _)) in o.iter_mut().zip(r) {
+                    a += len(i);
+                    *x = a;
+                }
+            });
+    }
+    let run_pts = run_total.iter().map(|&x| x as usize);
     let mut face_vertices = vec![0u32; *face_offsets.last().unwrap() as usize];
     let np = inp.points.len();
     let used: Vec<std::sync::atomic::AtomicBool> = (0..np)
@@ -209,7 +228,7 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
             }
         });
     drop(order);
-    drop(run_lens);
+    drop(run_total);
     drop(inp.faces);
     let used: Vec<bool> = used.into_iter().map(|u| u.into_inner()).collect();
     let mut new_id = vec![u32::MAX; np];
