@@ -379,16 +379,34 @@ impl Vertices {
             .unwrap_or(0);
         let cb = 32 - max_c.leading_zeros();
         let sb = usize::BITS - n.leading_zeros();
+        // the eight corners of leaf `l`, its anchor decoded once
+        let corners8 = |l: usize| {
+            let k = leaves[l];
+            let (a, e) = (k.anchor(), k.edge());
+            std::array::from_fn::<[u32; 3], 8, _>(|i| {
+                [
+                    a[0] + e * (i as u32 & 1),
+                    a[1] + e * ((i as u32 >> 1) & 1),
+                    a[2] + e * ((i as u32 >> 2) & 1),
+                ]
+            })
+        };
         let slot_group = if 3 * cb + sb <= 64 {
-            let pack = |s: usize| {
-                let g = corner(s / 8, s % 8);
-                let key = (g[2] as u64) << (2 * cb) | (g[1] as u64) << cb | g[0] as u64;
-                key << sb | s as u64
+            let pack = |l: usize| {
+                let c = corners8(l);
+                std::array::from_fn(|i| {
+                    let g = c[i];
+                    let key = (g[2] as u64) << (2 * cb) | (g[1] as u64) << cb | g[0] as u64;
+                    key << sb | (8 * l + i) as u64
+                })
             };
             group_slots(n, pack, |x| x >> sb, |x| (x & ((1 << sb) - 1)) as usize)
         } else {
             // grid coordinates beyond 2^18 on some axis
-            let pack = |s: usize| grid_key(corner(s / 8, s % 8)) << 32 | s as u128;
+            let pack = |l: usize| {
+                let c = corners8(l);
+                std::array::from_fn(|i| grid_key(c[i]) << 32 | (8 * l + i) as u128)
+            };
             group_slots(n, pack, |x| x >> 32, |x| x as u32 as usize)
         };
         let (slot_group, first) = slot_group;
@@ -442,17 +460,17 @@ impl Vertices {
 }
 
 /// The group (distinct key, numbered in key order) of each of the `n` slots, and the first
-/// (smallest) slot of each group. `pack(s)` is slot `s`'s (key, slot) value, `key` and `slot`
-/// take it apart.
+/// (smallest) slot of each group. `pack(l)` gives the (key, slot) values of leaf `l`'s eight
+/// slots `8 l ..`, `key` and `slot` take one apart.
 ///
 /// Two rounds: each block of [`SLOT_BLOCK`] consecutive slots keeps one representative per
 /// key, its first slot, found with a small open-addressing table (linear probing; in cache);
 /// then the representatives of all blocks are sorted together in parallel. Neighbouring
 /// leaves share most corners, so the sort sees a fraction of the slots. The groups are those
 /// of one global sort.
-fn group_slots<T: Ord + Copy + Send + Sync + Into<u128>>(
+fn group_slots<T: Ord + Copy + Default + Send + Sync + Into<u128>>(
     n: usize,
-    pack: impl Fn(usize) -> T + Sync + Send,
+    pack: impl Fn(usize) -> [T; 8] + Sync + Send,
     key: impl Fn(T) -> T + Sync + Send,
     slot: impl Fn(T) -> usize + Sync + Send,
 ) -> (Vec<u32>, Vec<u32>) {
@@ -462,7 +480,7 @@ fn group_slots<T: Ord + Copy + Send + Sync + Into<u128>>(
         crate::util::mix(k as u64 ^ (k >> 64) as u64)
     };
     // per block: representatives in order of first slot, and each slot's representative index
-    let blocks: Vec<(Vec<T>, Vec<u32>)> = (0..nb)
+    let mut blocks: Vec<(Vec<T>, Vec<u32>)> = (0..nb)
         .into_par_iter()
         .map_init(
             || vec![0u32; 2 * SLOT_BLOCK],
@@ -472,8 +490,7 @@ fn group_slots<T: Ord + Copy + Send + Sync + Into<u128>>(
                 table.fill(0);
                 let mut reps: Vec<T> = Vec::with_capacity((hi - lo) / 2);
                 let mut local = Vec::with_capacity(hi - lo);
-                for s in lo..hi {
-                    let x = pack(s);
+                for x in (lo / 8..hi / 8).flat_map(&pack) {
                     let k = key(x);
                     let mut h = hash(k) as usize & mask;
                     loop {
@@ -496,33 +513,68 @@ fn group_slots<T: Ord + Copy + Send + Sync + Into<u128>>(
             },
         )
         .collect();
-    let mut all: Vec<T> = Vec::with_capacity(blocks.iter().map(|b| b.0.len()).sum());
+    // representatives numbered block after block
+    let mut rep_base = Vec::with_capacity(nb);
+    let mut nr = 0usize;
     for b in &blocks {
-        all.extend_from_slice(&b.0);
+        rep_base.push(nr);
+        nr += b.0.len();
     }
+    let mut all: Vec<T> = {
+        let reps: Vec<Vec<T>> = blocks
+            .iter_mut()
+            .map(|b| std::mem::take(&mut b.0))
+            .collect();
+        crate::concat::concat(&reps)
+    };
     all.par_sort_unstable();
-    // group of every representative: a representative's own slot maps to its index in its
-    // block's list
-    let mut rep_group: Vec<Vec<u32>> = blocks.iter().map(|b| vec![0; b.0.len()]).collect();
+    // group of every representative, in parallel: a position's group is the number of key
+    // starts up to it, less one (runs of positions count their starts first); the flat
+    // representative numbers go block after block
+    const RUN: usize = 1 << 16;
+    let is_start = |i: usize| i == 0 || key(all[i - 1]) != key(all[i]);
+    let run_range = |r: usize| r * RUN..((r + 1) * RUN).min(all.len());
+    let starts: Vec<u32> = (0..all.len().div_ceil(RUN))
+        .into_par_iter()
+        .map(|r| run_range(r).filter(|&i| is_start(i)).count() as u32)
+        .collect();
+    let mut run_base = Vec::with_capacity(starts.len());
     let mut ng = 0u32;
-    // (key, slot) order: the first value of a key holds its smallest slot
-    let mut first = Vec::new();
-    for (i, &x) in all.iter().enumerate() {
-        if i == 0 || key(all[i - 1]) != key(x) {
-            ng += 1;
-            first.push(slot(x) as u32);
-        }
-        let (b, o) = (slot(x) / SLOT_BLOCK, slot(x) % SLOT_BLOCK);
-        rep_group[b][blocks[b].1[o] as usize] = ng - 1;
+    for &c in &starts {
+        run_base.push(ng);
+        ng += c;
     }
+    // (key, slot) order: the first value of a key holds its smallest slot
+    let first: Vec<u32> =
+        crate::concat::filter_map_sized(all.len(), |i| is_start(i).then(|| slot(all[i]) as u32));
+    let mut pos_group = vec![0u32; all.len()];
+    pos_group
+        .par_chunks_mut(RUN)
+        .enumerate()
+        .for_each(|(r, out)| {
+            // the group of the position before the run (none before position 0)
+            let mut cur = run_base[r].wrapping_sub(1);
+            for (x, i) in out.iter_mut().zip(run_range(r)) {
+                if is_start(i) {
+                    cur = cur.wrapping_add(1);
+                }
+                *x = cur;
+            }
+        });
+    let rep_group = crate::util::scatter(nr, all.len(), |i| {
+        let s = slot(all[i]);
+        let (b, o) = (s / SLOT_BLOCK, s % SLOT_BLOCK);
+        (rep_base[b] + blocks[b].1[o] as usize, pos_group[i])
+    });
+    drop(pos_group);
     drop(all);
     let mut group = vec![0u32; n];
     group
         .par_chunks_mut(SLOT_BLOCK)
-        .zip(blocks.par_iter().zip(rep_group.par_iter()))
-        .for_each(|(g, ((_, local), rg))| {
+        .zip(blocks.par_iter().zip(rep_base.par_iter()))
+        .for_each(|(g, ((_, local), &base))| {
             for (x, &r) in g.iter_mut().zip(local) {
-                *x = rg[r as usize];
+                *x = rep_group[base + r as usize];
             }
         });
     (group, first)
@@ -579,8 +631,40 @@ fn face_polygon(lines: &Lines, k: OctKey, ids: &[u32; 8], d: u8, out: &mut Vec<u
 mod tests {
     use super::*;
     use crate::test_support::{icosphere, refined_tree};
+    use crate::util::mix;
     use octocut_octree::Domain;
     use octocut_surface::{Aabb, SurfaceIndex, Vec3};
+
+    #[test]
+    fn slot_groups_equal_one_global_sort() {
+        // reference: distinct keys numbered in key order, each with its smallest slot, from a
+        // sorted map (the definition); keys repeat within and across blocks
+        for (leaves, modulus) in [(1usize, 3u64), (700, 500), (3000, 20_000), (2048, 7)] {
+            let n = 8 * leaves;
+            let sb = usize::BITS - n.leading_zeros();
+            let key_of = |s: usize| mix(s as u64 / 3) % modulus;
+            let pack =
+                |l: usize| std::array::from_fn(|i| key_of(8 * l + i) << sb | (8 * l + i) as u64);
+            let (group, first) =
+                group_slots(n, pack, |x| x >> sb, |x| (x & ((1 << sb) - 1)) as usize);
+            let mut map = std::collections::BTreeMap::new();
+            for s in 0..n {
+                map.entry(key_of(s)).or_insert(s as u32);
+            }
+            let number: std::collections::HashMap<u64, u32> = map
+                .keys()
+                .enumerate()
+                .map(|(g, &k)| (k, g as u32))
+                .collect();
+            assert_eq!(
+                first,
+                map.values().copied().collect::<Vec<_>>(),
+                "{leaves} leaves"
+            );
+            let want: Vec<u32> = (0..n).map(|s| number[&key_of(s)]).collect();
+            assert_eq!(group, want, "{leaves} leaves");
+        }
+    }
 
     #[test]
     fn face_blocks_regroup_the_chunks_in_face_order() {

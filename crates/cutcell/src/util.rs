@@ -2,7 +2,10 @@
 //! components are named by their first member (deterministic whatever the thread count), and
 //! [`gather_chunk`], the chunk size of the stage's gathered parallel maps, [`mix`] (the
 //! surface crate's hash) for the stage's small open-addressing tables, and
-//! [`counting_sort_by`], a stable counting sort of ids by a small integer key.
+//! [`counting_sort_by`], a stable counting sort of ids by a small integer key, and [`scatter`],
+//! parallel writes of distinct slots.
+
+use rayon::prelude::*;
 
 /// Disjoint sets over `0..n` with the smallest member as root.
 #[derive(Clone, Debug)]
@@ -52,6 +55,30 @@ pub(crate) fn gather_chunk(n: usize, min: usize, max: usize) -> usize {
     (n / (8 * rayon::current_num_threads().max(1))).clamp(min, max)
 }
 
+/// `out[k] = v` for every `(k, v) = f(i)`, `i` in `0..n`, in parallel, into an output of
+/// `n_out` zeros. Every `k` must come at most once (a permutation or part of one), so the
+/// result never depends on the order of the writes.
+///
+/// ```ignore
+/// assert_eq!(scatter(3, 3, |i| (2 - i, i as u32 * 10)), vec![20, 10, 0]);
+/// ```
+pub(crate) fn scatter(
+    n_out: usize,
+    n: usize,
+    f: impl Fn(usize) -> (usize, u32) + Sync,
+) -> Vec<u32> {
+    use std::sync::atomic::{AtomicU32, Ordering};
+    let out: Vec<AtomicU32> = (0..n_out)
+        .into_par_iter()
+        .map(|_| AtomicU32::new(0))
+        .collect();
+    (0..n).into_par_iter().with_min_len(4096).for_each(|i| {
+        let (k, v) = f(i);
+        out[k].store(v, Ordering::Relaxed);
+    });
+    out.into_par_iter().map(AtomicU32::into_inner).collect()
+}
+
 pub(crate) use octocut_surface::hash::mix;
 
 /// `ids` reordered by `key(id)` (at most `max_key`), keeping the given order among equal keys
@@ -92,5 +119,17 @@ mod tests {
         let mut want = ids.clone();
         want.sort_by_key(|&i| key(i)); // std's sort_by_key is stable
         assert_eq!(counting_sort_by(&ids, 36, key), want);
+    }
+
+    #[test]
+    fn scatter_equals_serial_writes() {
+        // reference: the serial loop out[k] = v over a permutation of part of the slots
+        let n_out = 50_000;
+        let idx = |i: usize| (i * 7919) % n_out;
+        let mut want = vec![0u32; n_out];
+        for i in 0..40_000 {
+            want[idx(i)] = i as u32 + 1;
+        }
+        assert_eq!(scatter(n_out, 40_000, |i| (idx(i), i as u32 + 1)), want);
     }
 }
