@@ -126,3 +126,33 @@ fn plan_predicts_the_cells_built() {
         );
     }
 }
+
+#[test]
+fn a_plan_made_beforehand_gives_the_same_run() {
+    // `mesh_planned` with the plan printed first must build what `mesh` builds; a plan of
+    // another box is made again, so the report's plan is always the spec's
+    let s = shapes::uv_sphere(Vec3::ZERO, 0.5, 24, 12, "ball");
+    let m = Mesher::from_surface(s, &RepairOptions::default());
+    let b = [-1.0, -1.0, -1.0, 1.0, 1.0, 1.0];
+    let spec = CaseSpec::quick(vec![], b, 0.5, 0.125, FluidSpec::Outside);
+    let direct = m.mesh(&spec, &Hooks::default()).expect("meshes");
+    let plan = m.plan(&spec).expect("plans");
+    let planned = m
+        .mesh_planned(&spec, plan, &Hooks::default())
+        .expect("meshes");
+    assert_eq!(direct.mesh.face_vertices, planned.mesh.face_vertices);
+    assert_eq!(direct.mesh.points, planned.mesh.points);
+    let other = CaseSpec::quick(
+        vec![],
+        [-2.0, -1.0, -1.0, 1.0, 1.0, 1.0],
+        0.5,
+        0.125,
+        FluidSpec::Outside,
+    );
+    let stale = m.plan(&other).expect("plans");
+    let replanned = m
+        .mesh_planned(&spec, stale, &Hooks::default())
+        .expect("meshes");
+    assert_eq!(replanned.report.plan.domain_box, b);
+    assert_eq!(replanned.mesh.face_vertices, direct.mesh.face_vertices);
+}

@@ -183,7 +183,7 @@ fn run_inner(a: &MeshArgs) -> Result<()> {
         progress: Some(&on_progress),
         cancel: None,
     };
-    let outcome = mesher.mesh(&spec, &hooks)?;
+    let outcome = mesher.mesh_planned(&spec, plan, &hooks)?;
     let written = octocut::output::write_outputs(&outcome, &spec, &dir, &hooks)
         .with_context(|| format!("writing the outputs into {}", dir.display()))?;
     if !a.quiet {

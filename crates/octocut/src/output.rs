@@ -53,8 +53,12 @@ pub fn write_outputs(
     };
     let mut clock = StageClock::default();
     let mut written = clock.run(hooks, Stage::Write, "files", || {
-        let mut written = Vec::new();
-        if want("vtu") {
+        // the volume mesh on one thread, the boundary and the pictures on the other: they only
+        // read the outcome, and each file has its own temporary name
+        let vtu = || -> Result<Vec<PathBuf>, MeshError> {
+            if !want("vtu") {
+                return Ok(Vec::new());
+            }
             let p = dir.join("mesh.vtu");
             // the quality arrays borrowed, not copied
             let named = out.quality.per_cell.named();
@@ -63,18 +67,24 @@ pub fn write_outputs(
             let volume = &out.quality.per_cell.volume;
             write_vtu_with_volumes(&out.mesh, volume, &extra, &p, encoding)
                 .map_err(|e| werr(&p, e))?;
-            written.push(p);
-        }
+            Ok(vec![p])
+        };
+        let rest = || -> Result<Vec<PathBuf>, MeshError> {
+            let mut written = Vec::new();
+            if want("vtp") {
+                let p = dir.join("boundary.vtp");
+                write_vtp(&out.mesh, &p, encoding).map_err(|e| werr(&p, e))?;
+                written.push(p);
+            }
+            if want("png") {
+                written.extend(write_pictures(out, dir)?);
+            }
+            Ok(written)
+        };
+        let (a, b) = rayon::join(vtu, rest);
         crate::pipeline::release_free_memory();
-        if want("vtp") {
-            let p = dir.join("boundary.vtp");
-            write_vtp(&out.mesh, &p, encoding).map_err(|e| werr(&p, e))?;
-            written.push(p);
-        }
-        crate::pipeline::release_free_memory();
-        if want("png") {
-            written.extend(write_pictures(out, dir)?);
-        }
+        let mut written = a?;
+        written.extend(b?);
         let n = written.len() as u64;
         Ok::<_, MeshError>((written, n))
     })?;

@@ -307,9 +307,30 @@ impl Mesher {
     /// Configuration problems, a refused limit, cancellation through `hooks`, or an internal
     /// error when the built mesh fails validation.
     pub fn mesh(&self, spec: &CaseSpec, hooks: &Hooks) -> Result<Outcome, MeshError> {
+        let plan = self.plan(spec)?;
+        self.mesh_planned(spec, plan, hooks)
+    }
+
+    /// As [`Mesher::mesh`], with the plan of `spec` already made by [`Mesher::plan`] (a caller
+    /// that prints the plan first does not pay for the estimate twice). A plan whose box is not
+    /// the one `spec` gives is made again.
+    ///
+    /// # Errors
+    /// As [`Mesher::mesh`].
+    pub fn mesh_planned(
+        &self,
+        spec: &CaseSpec,
+        plan: Plan,
+        hooks: &Hooks,
+    ) -> Result<Outcome, MeshError> {
         let domain = self.domain(spec)?;
         let fluid = self.fluid_side(spec, &domain)?;
-        let plan = self.plan(spec)?;
+        let b = domain.bounds();
+        let same_box = plan.domain_box == [b.min.x, b.min.y, b.min.z, b.max.x, b.max.y, b.max.z]
+            && plan.base_cells == domain.counts
+            && plan.max_cells == spec.limits.max_cells
+            && plan.max_memory_bytes == spec.limits.max_memory_bytes;
+        let plan = if same_box { plan } else { self.plan(spec)? };
         self.check_limits(&plan)?;
         let rspec = self.refine_spec(spec);
         let mut clock = StageClock::default();
