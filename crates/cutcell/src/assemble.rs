@@ -152,11 +152,15 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
         .collect();
     boundary.par_sort_unstable();
     let n_interior = interior.len() as u32;
-    // final face order: raw face and whether it is reversed
-    let order: Vec<(u32, bool)> = interior
+    // final face order: raw face, with `REVERSED` set when its polygon is reversed (4 bytes a
+    // face at the stage's late peak; faces have at least three of the fewer than 2^32 vertex
+    // slots, so their ids stay below 2^31)
+    const REVERSED: u32 = 1 << 31;
+    debug_assert!(inp.faces.first.len() + inp.faces.second.len() < REVERSED as usize);
+    let order: Vec<u32> = interior
         .par_iter()
-        .map(|x| (x.2, x.3))
-        .chain(boundary.par_iter().map(|x| (x.2, false)))
+        .map(|x| x.2 | if x.3 { REVERSED } else { 0 })
+        .chain(boundary.par_iter().map(|x| x.2))
         .collect();
     let owner: Vec<u32> = interior
         .par_iter()
@@ -175,12 +179,12 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
     // vertex lists copied in parallel, a run of faces at a time (each run's vertices are one
     // contiguous range)
     const RUN: usize = 4096;
-    let len = |i: u32| f.face(i as usize).len() as u32;
+    let len = |i: u32| f.face((i & !REVERSED) as usize).len() as u32;
     // offsets: each run's total, then the runs filled in parallel from their starts (no list
     // of lengths kept: memory at the stage's late peak)
     let run_total: Vec<u32> = order
         .par_chunks(RUN)
-        .map(|r| r.iter().map(|&(i, _)| len(i)).sum())
+        .map(|r| r.iter().map(|&i| len(i)).sum())
         .collect();
     let mut face_offsets = vec![0u32; order.len() + 1];
     {
@@ -196,7 +200,7 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
             .zip(order.par_chunks(RUN))
             .zip(start)
             .for_each(|((o, r), mut a)| {
-                for (x, &(i, _)) in o.iter_mut().zip(r) {
+                for (x, &i) in o.iter_mut().zip(r) {
                     a += len(i);
                     *x = a;
                 }
@@ -214,7 +218,8 @@ pub(crate) fn assemble(mut inp: AssembleInput) -> VolumeMesh {
         .zip(order.par_chunks(RUN))
         .for_each(|(out, r)| {
             let mut at = 0;
-            for &(i, rev) in r {
+            for &i in r {
+                let (rev, i) = (i & REVERSED != 0, i & !REVERSED);
                 let p = f.face(i as usize);
                 let o = &mut out[at..at + p.len()];
                 o.copy_from_slice(p);

@@ -20,6 +20,8 @@ use octocut_octree::{Domain, OctKey, Octree};
 use octocut_surface::tribox::triangle_box_overlap;
 use octocut_surface::{Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
+use std::sync::atomic::Ordering::Relaxed;
+use std::sync::atomic::{AtomicU32, AtomicU8};
 
 pub(crate) struct Classes {
     /// Fluid flag per mesh vertex (point id).
@@ -423,24 +425,51 @@ pub(crate) fn classify(
         }
     }
     crate::tmark("cls.uf");
+    let root = uf.into_roots();
+    // the untouched leaf beside face `f`, if any (both sides untouched are one run); a leaf's
+    // corners are vertices of its faces, and every vertex of its faces lies in its closed,
+    // surface-free box
+    let untouched_side = |f: &crate::topology::EFace| {
+        if !touched.is(f.e()) {
+            Some(f.e())
+        } else if !f.is_boundary() && !touched.is(f.n) {
+            Some(f.n)
+        } else {
+            None
+        }
+    };
+    // each run's class from a known vertex of its first face (in face order) that has one:
+    // the first such face found in parallel by an atomic minimum, so any thread count agrees
+    let first: Vec<AtomicU32> = (0..leaves.len())
+        .into_par_iter()
+        .map(|_| AtomicU32::new(u32::MAX))
+        .collect();
+    topo.faces
+        .par_iter()
+        .enumerate()
+        .with_min_len(4096)
+        .for_each(|(i, f)| {
+            if let Some(l) = untouched_side(f) {
+                let r = &first[root[l as usize] as usize];
+                if r.load(Relaxed) > i as u32
+                    && topo.face(i as u32).iter().any(|&p| known[p as usize])
+                {
+                    r.fetch_min(i as u32, Relaxed);
+                }
+            }
+        });
+    let first: Vec<u32> = first.into_iter().map(AtomicU32::into_inner).collect();
     const UNKNOWN: u8 = 2;
     let mut run_class = vec![UNKNOWN; leaves.len()];
-    for l in 0..leaves.len() as u32 {
-        if touched.is(l) {
-            continue;
-        }
-        let r = uf.find(l) as usize;
-        if run_class[r] == UNKNOWN {
-            if let Some(&p) = topo.corners[l as usize]
-                .iter()
-                .find(|&&p| known[p as usize])
-            {
-                run_class[r] = fluid[p as usize] as u8;
-            }
+    for (r, &f) in first.iter().enumerate() {
+        if f != u32::MAX {
+            let p = topo.face(f).iter().find(|&&p| known[p as usize]).unwrap();
+            run_class[r] = fluid[*p as usize] as u8;
         }
     }
+    drop(first);
     let run_roots: Vec<u32> = (0..leaves.len() as u32)
-        .filter(|&l| !touched.is(l) && uf.find(l) == l && run_class[l as usize] == UNKNOWN)
+        .filter(|&l| !touched.is(l) && root[l as usize] == l && run_class[l as usize] == UNKNOWN)
         .collect();
     let centres: Vec<Vec3> = run_roots
         .iter()
@@ -451,18 +480,33 @@ pub(crate) fn classify(
     for (&l, &w) in run_roots.iter().zip(&rv) {
         run_class[l as usize] = ((w >= 0.5) == fluid_inside) as u8;
     }
-    for l in 0..leaves.len() as u32 {
-        if touched.is(l) {
-            continue;
-        }
-        let c = run_class[uf.find(l) as usize] == 1;
-        for &p in &topo.corners[l as usize] {
-            if !known[p as usize] {
-                known[p as usize] = true;
-                fluid[p as usize] = c;
+    // vertices still unknown lie on no touched leaf, so every leaf around one is untouched
+    // and the leaves around a point are face-connected: one run, one class, whichever face
+    // writes it (the parallel writes agree)
+    let assigned: Vec<AtomicU8> = (0..np).into_par_iter().map(|_| AtomicU8::new(0)).collect();
+    topo.faces
+        .par_iter()
+        .enumerate()
+        .with_min_len(4096)
+        .for_each(|(i, f)| {
+            if let Some(l) = untouched_side(f) {
+                let c = 1 + run_class[root[l as usize] as usize];
+                for &p in topo.face(i as u32) {
+                    if !known[p as usize] {
+                        assigned[p as usize].store(c, Relaxed);
+                    }
+                }
             }
-        }
-    }
+        });
+    fluid
+        .par_iter_mut()
+        .zip(assigned)
+        .with_min_len(4096)
+        .for_each(|(x, a)| match a.into_inner() {
+            1 => *x = false,
+            2 => *x = true,
+            _ => {}
+        });
     Classes { fluid, evaluations }
 }
 

@@ -350,7 +350,6 @@ pub fn cut_cells_with_regions(
         all.extend(extra);
         eh = EdgeHits::query(index, &gpos, &touched, all);
     }
-    topo.corners = Vec::new();
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
     tmark("edgetable");
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
@@ -1040,13 +1039,16 @@ fn point_cell(
 mod tests;
 
 /// With `OCTOCUT_CUT_TIMING` set, prints the wall and process CPU seconds since the previous
-/// mark and the resident memory (Linux `/proc`), for profiling the stage's phases.
+/// mark and the resident memory (Linux `/proc`), for profiling the stage's phases. The peak is
+/// the process's so far; with `OCTOCUT_CUT_TIMING=phase` it is the phase's own (the kernel's
+/// high-water mark is reset at each mark, so the stage's reported peak is then only its last
+/// phase's).
 pub(crate) fn tmark(name: &str) {
     use std::sync::Mutex;
     static LAST: Mutex<Option<(std::time::Instant, f64)>> = Mutex::new(None);
-    if std::env::var_os("OCTOCUT_CUT_TIMING").is_none() {
+    let Some(mode) = std::env::var_os("OCTOCUT_CUT_TIMING") else {
         return;
-    }
+    };
     let now = std::time::Instant::now();
     let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
     let fields: Vec<&str> = stat
@@ -1078,4 +1080,8 @@ pub(crate) fn tmark(name: &str) {
         );
     }
     *last = Some((now, cpu));
+    if mode == "phase" {
+        // "5" resets the peak resident set size (proc(5), /proc/pid/clear_refs)
+        let _ = std::fs::write("/proc/self/clear_refs", "5");
+    }
 }

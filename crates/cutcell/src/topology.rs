@@ -59,8 +59,6 @@ impl EFace {
 pub(crate) struct Topology {
     /// Grid coordinates of every mesh vertex, by point id.
     pub grid: Vec<[u32; 3]>,
-    /// Point ids of each leaf's 8 corners (bit 0 x, bit 1 y, bit 2 z).
-    pub corners: Vec<[u32; 8]>,
     pub faces: Vec<EFace>,
     /// The face polygons, in blocks of `1 << block_bits` consecutive faces.
     pub blocks: Vec<FaceBlock>,
@@ -101,11 +99,10 @@ impl Topology {
         std::mem::take(&mut self.blocks)
     }
 
-    /// Frees the vertex data (coordinates, corners, face polygons, leaf face lists), keeping
-    /// the face list.
+    /// Frees the vertex data (coordinates, face polygons, leaf face lists), keeping the face
+    /// list.
     pub fn release_vertex_data(&mut self) {
         self.grid = Vec::new();
-        self.corners = Vec::new();
         self.blocks = Vec::new();
         self.leaf_off = Vec::new();
         self.leaf_faces = Vec::new();
@@ -165,7 +162,10 @@ impl Topology {
                 (faces, lens, pts)
             })
             .collect();
+        // a leaf's corners are vertices of its faces' polygons: the corner table (32 bytes a
+        // leaf) is not kept past the enumeration (memory through the classification)
         drop(lines);
+        drop(corners);
         crate::tmark("topo.enum");
         let (face_parts, lens, pts): (Vec<_>, Vec<_>, Vec<_>) =
             chunks
@@ -184,7 +184,6 @@ impl Topology {
         crate::tmark("topo.faces");
         Topology {
             grid,
-            corners,
             faces,
             blocks,
             block_bits,

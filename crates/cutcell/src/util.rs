@@ -36,6 +36,25 @@ impl UnionFind {
         x
     }
 
+    /// The root of every element, in the parent buffer. Roots are the smallest member of their
+    /// set and every parent is smaller than its child ([`UnionFind::union`] hangs the larger root
+    /// under the smaller, path halving only moves a link up), so one increasing pass resolves all.
+    ///
+    /// ```ignore
+    /// let mut uf = UnionFind::new(4);
+    /// uf.union(3, 1);
+    /// assert_eq!(uf.into_roots(), vec![0, 1, 2, 1]);
+    /// ```
+    pub fn into_roots(self) -> Vec<u32> {
+        let mut p = self.parent;
+        for x in 0..p.len() {
+            let q = p[x] as usize;
+            debug_assert!(q <= x);
+            p[x] = p[q];
+        }
+        p
+    }
+
     /// Joins the sets of `a` and `b`; returns the new root (the smaller of the two roots).
     #[inline]
     pub fn union(&mut self, a: u32, b: u32) -> u32 {
@@ -110,6 +129,26 @@ mod tests {
         u.union(4, 1);
         assert_eq!(u.find(3), 1);
         assert_eq!(u.find(0), 0);
+    }
+
+    #[test]
+    fn roots_in_one_pass_equal_find() {
+        // reference: `find` on every element (the definition of a set's root)
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        for _ in 0..20 {
+            let n = rng.random_range(1..300u32);
+            let mut u = UnionFind::new(n as usize);
+            for _ in 0..rng.random_range(0..2 * n) {
+                let (a, b) = (rng.random_range(0..n), rng.random_range(0..n));
+                u.union(a, b);
+                // path halving between unions, as the callers' finds do
+                u.find(rng.random_range(0..n));
+            }
+            let mut r = u.clone();
+            let want: Vec<u32> = (0..n).map(|x| r.find(x)).collect();
+            assert_eq!(u.into_roots(), want);
+        }
     }
 
     #[test]
