@@ -350,6 +350,7 @@ pub fn cut_cells_with_regions(
         all.extend(extra);
         eh = EdgeHits::query(index, &gpos, &touched, all);
     }
+    drop((face_mix, mix));
     let edges = EdgeTable::build(index, &gpos, fluid, fluid_inside, eh);
     tmark("edgetable");
     let pierce_base = n_grid as u64 + edges.crossings.len() as u64;
@@ -396,6 +397,8 @@ pub fn cut_cells_with_regions(
         pierce_cuts: opts.pierce_points,
     }
     .run(pierce_base, blocks, topo.block_bits);
+    // the vertex classes are in the clipped polygons now (memory through the closing)
+    drop(cls);
     // a uniform leaf beside a face that a poke edge cuts (see `clip`) is cut
     if !clip.poke_plane.is_empty() {
         for (f, face) in topo.faces.iter().enumerate() {
@@ -447,6 +450,8 @@ pub fn cut_cells_with_regions(
         })
         .collect();
     drop(multi_edge);
+    // the closing reads no triangle list (memory: the lists of every touched leaf)
+    drop(touched);
     let pts = Points {
         domain,
         grid: &topo.grid,
@@ -548,11 +553,7 @@ pub fn cut_cells_with_regions(
     // free what the faces no longer need before the new arrays (peak memory)
     let grid = std::mem::take(&mut topo.grid);
     topo.release_vertex_data();
-    drop(cls);
-    drop(face_mix);
-    drop(mix);
     drop(multi);
-    drop(touched);
     let mut points: Vec<Vec3> =
         Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
     points.extend(grid.iter().map(|&g| true_domain.point(g)));
@@ -908,6 +909,11 @@ pub fn cut_cells_with_regions(
     }
     report.cells = n_cells as usize;
     report.cut_cells = cut.iter().filter(|&&c| c != 0).count();
+    // per-cell and per-leaf arrays the assembly does not read (memory at its peak)
+    drop((
+        uf, root_id, alive, cell_vol, cell_leaf, cell_cut, leaf_cell, status,
+    ));
+    drop((merged.tiny, merged.group_volume));
     let mesh = assemble(AssembleInput {
         points: &points,
         faces: raw,
