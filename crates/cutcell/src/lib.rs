@@ -554,13 +554,6 @@ pub fn cut_cells_with_regions(
     let grid = std::mem::take(&mut topo.grid);
     topo.release_vertex_data();
     drop(multi);
-    let mut points: Vec<Vec3> =
-        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
-    points.extend(grid.iter().map(|&g| true_domain.point(g)));
-    drop(grid);
-    points.extend(edges.crossings.iter().map(|c| c.point));
-    drop(edges);
-    points.extend_from_slice(&clip.pierce);
     // polygon -> cell on each side (and the box side of boundary polygons), in parallel over
     // runs of faces: the polygons of a face run are one contiguous range
     let npoly = clip.poly_off.len() - 1;
@@ -616,6 +609,18 @@ pub fn cut_cells_with_regions(
                 }
             });
     }
+    // the face list and the face -> polygon map are read no more: freed before the points
+    // (memory at the phase's peak)
+    topo.faces = Vec::new();
+    clip.face_poly = Vec::new();
+    clip.pair = Vec::new();
+    let mut points: Vec<Vec3> =
+        Vec::with_capacity(pierce_base as usize + clip.pierce.len() + new_pts);
+    points.extend(grid.iter().map(|&g| true_domain.point(g)));
+    drop(grid);
+    points.extend(edges.crossings.iter().map(|c| c.point));
+    drop(edges);
+    points.extend_from_slice(&clip.pierce);
     let mut raw;
     {
         // chunk-local piece indices and points to global ids, in place
