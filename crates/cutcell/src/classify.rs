@@ -438,26 +438,31 @@ pub(crate) fn classify(
             None
         }
     };
+    // `g(face, its untouched side's run, the face polygon)` for every face with such a side,
+    // in parallel
+    let each_untouched_face = |g: &(dyn Fn(u32, u32, &[u32]) + Sync)| {
+        topo.faces
+            .par_iter()
+            .enumerate()
+            .with_min_len(4096)
+            .for_each(|(i, f)| {
+                if let Some(l) = untouched_side(f) {
+                    g(i as u32, root[l as usize], topo.face(i as u32));
+                }
+            });
+    };
     // each run's class from a known vertex of its first face (in face order) that has one:
     // the first such face found in parallel by an atomic minimum, so any thread count agrees
     let first: Vec<AtomicU32> = (0..leaves.len())
         .into_par_iter()
         .map(|_| AtomicU32::new(u32::MAX))
         .collect();
-    topo.faces
-        .par_iter()
-        .enumerate()
-        .with_min_len(4096)
-        .for_each(|(i, f)| {
-            if let Some(l) = untouched_side(f) {
-                let r = &first[root[l as usize] as usize];
-                if r.load(Relaxed) > i as u32
-                    && topo.face(i as u32).iter().any(|&p| known[p as usize])
-                {
-                    r.fetch_min(i as u32, Relaxed);
-                }
-            }
-        });
+    each_untouched_face(&|i, r, pts| {
+        let r = &first[r as usize];
+        if r.load(Relaxed) > i && pts.iter().any(|&p| known[p as usize]) {
+            r.fetch_min(i, Relaxed);
+        }
+    });
     let first: Vec<u32> = first.into_iter().map(AtomicU32::into_inner).collect();
     const UNKNOWN: u8 = 2;
     let mut run_class = vec![UNKNOWN; leaves.len()];
@@ -484,20 +489,14 @@ pub(crate) fn classify(
     // and the leaves around a point are face-connected: one run, one class, whichever face
     // writes it (the parallel writes agree)
     let assigned: Vec<AtomicU8> = (0..np).into_par_iter().map(|_| AtomicU8::new(0)).collect();
-    topo.faces
-        .par_iter()
-        .enumerate()
-        .with_min_len(4096)
-        .for_each(|(i, f)| {
-            if let Some(l) = untouched_side(f) {
-                let c = 1 + run_class[root[l as usize] as usize];
-                for &p in topo.face(i as u32) {
-                    if !known[p as usize] {
-                        assigned[p as usize].store(c, Relaxed);
-                    }
-                }
+    each_untouched_face(&|_, r, pts| {
+        let c = 1 + run_class[r as usize];
+        for &p in pts {
+            if !known[p as usize] {
+                assigned[p as usize].store(c, Relaxed);
             }
-        });
+        }
+    });
     fluid
         .par_iter_mut()
         .zip(assigned)
