@@ -210,11 +210,6 @@ impl EdgeHits {
             delta,
         }
     }
-
-    #[inline]
-    pub fn of(&self, e: usize) -> &[SegmentHit] {
-        &self.hits[self.off[e] as usize..self.off[e + 1] as usize]
-    }
 }
 
 /// Crossings of every elementary edge the clipping may need, keyed by the edge's point ids.
@@ -244,10 +239,17 @@ impl EdgeTable {
         fluid_inside: bool,
         eh: EdgeHits,
     ) -> EdgeTable {
+        // the query codes and the signed counts are not read here (memory at the phase's peak)
+        let EdgeHits {
+            keys: all_keys,
+            off,
+            hits: seg,
+            ..
+        } = eh;
         // edges whose end classes differ, then their crossings in that order
-        let crossed: Vec<u32> = (0..eh.keys.len() as u32)
+        let crossed: Vec<u32> = (0..all_keys.len() as u32)
             .filter(|&e| {
-                let k = eh.keys[e as usize];
+                let k = all_keys[e as usize];
                 fluid[(k >> 32) as usize] != fluid[(k as u32) as usize]
             })
             .collect();
@@ -255,26 +257,35 @@ impl EdgeTable {
             .par_iter()
             .with_min_len(512)
             .map(|&e| {
-                let k = eh.keys[e as usize];
+                let k = all_keys[e as usize];
                 let (p, q) = ((k >> 32) as u32, k as u32);
                 let fa = fluid[p as usize];
-                edge_crossing(index, pos(p), pos(q), fa, fluid_inside, eh.of(e as usize))
+                let hits = &seg[off[e as usize] as usize..off[e as usize + 1] as usize];
+                edge_crossing(index, pos(p), pos(q), fa, fluid_inside, hits)
             })
             .collect();
+        drop(seg);
         // only edges that the surface meets or whose classes differ are ever looked up (a
-        // crossing, a poke, a warning): the others leave the table (peak memory)
-        let mut cross_all = vec![u32::MAX; eh.keys.len()];
-        for (c, &e) in crossed.iter().enumerate() {
-            cross_all[e as usize] = c as u32;
+        // crossing, a poke, a warning): the others leave the table (peak memory); `crossed`
+        // is increasing, so one walk pairs it with the edges
+        let hits_of = |e: usize| (off[e + 1] - off[e]).min(255) as u8;
+        let (mut keys, mut hits, mut cross) = (Vec::new(), Vec::new(), Vec::new());
+        let mut next = crossed.iter().copied().enumerate().peekable();
+        for (e, &k) in all_keys.iter().enumerate() {
+            let c = match next.peek() {
+                Some(&(c, x)) if x as usize == e => {
+                    next.next();
+                    c as u32
+                }
+                _ => u32::MAX,
+            };
+            let h = hits_of(e);
+            if c != u32::MAX || h > 0 {
+                keys.push(k);
+                hits.push(h);
+                cross.push(c);
+            }
         }
-        drop(crossed);
-        let hits_of = |e: usize| (eh.off[e + 1] - eh.off[e]).min(255) as u8;
-        let keep: Vec<usize> = (0..eh.keys.len())
-            .filter(|&e| cross_all[e] != u32::MAX || hits_of(e) > 0)
-            .collect();
-        let keys = keep.iter().map(|&e| eh.keys[e]).collect();
-        let hits = keep.iter().map(|&e| hits_of(e)).collect();
-        let cross = keep.iter().map(|&e| cross_all[e]).collect();
         EdgeTable {
             keys,
             hits,
