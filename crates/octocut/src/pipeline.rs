@@ -312,8 +312,9 @@ impl Mesher {
     }
 
     /// As [`Mesher::mesh`], with the plan of `spec` already made by [`Mesher::plan`] (a caller
-    /// that prints the plan first does not pay for the estimate twice). A plan whose box is not
-    /// the one `spec` gives is made again.
+    /// that prints the plan first does not pay for the estimate twice). `plan` must be the plan
+    /// of `spec`; one that visibly belongs to another case (another box, base grid or limits)
+    /// is made again.
     ///
     /// # Errors
     /// As [`Mesher::mesh`].
@@ -326,11 +327,11 @@ impl Mesher {
         let domain = self.domain(spec)?;
         let fluid = self.fluid_side(spec, &domain)?;
         let b = domain.bounds();
-        let same_box = plan.domain_box == [b.min.x, b.min.y, b.min.z, b.max.x, b.max.y, b.max.z]
+        let fits = plan.domain_box == [b.min.x, b.min.y, b.min.z, b.max.x, b.max.y, b.max.z]
             && plan.base_cells == domain.counts
             && plan.max_cells == spec.limits.max_cells
             && plan.max_memory_bytes == spec.limits.max_memory_bytes;
-        let plan = if same_box { plan } else { self.plan(spec)? };
+        let plan = if fits { plan } else { self.plan(spec)? };
         self.check_limits(&plan)?;
         let rspec = self.refine_spec(spec);
         let mut clock = StageClock::default();
