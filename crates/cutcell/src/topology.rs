@@ -368,14 +368,22 @@ impl Vertices {
         // (grid key, leaf corner slot), sorted: equal points together, first slot first; packed
         // into a u64 (z, y, x, slot bits) when it fits, which sorts the same and twice as fast
         let n = leaves.len() * 8;
-        let max_c = leaves
+        // every coordinate is a multiple of the finest leaf edge (anchors are multiples of
+        // their own edge, edges are powers of two), so keys drop its `shift` zero bits: a grid
+        // key of the refinement in use, not of the finest possible level
+        let (max_c, min_e) = leaves
             .par_iter()
             .map(|k| {
                 let (a, e) = (k.anchor(), k.edge());
-                a.iter().map(|&c| c + e).max().unwrap_or(0)
+                (a.iter().map(|&c| c + e).max().unwrap_or(0), e)
             })
-            .max()
-            .unwrap_or(0);
+            .reduce(|| (0, u32::MAX), |x, y| (x.0.max(y.0), x.1.min(y.1)));
+        let shift = if leaves.is_empty() {
+            0
+        } else {
+            min_e.trailing_zeros()
+        };
+        let max_c = max_c >> shift;
         let cb = 32 - max_c.leading_zeros();
         let sb = usize::BITS - n.leading_zeros();
         // the eight corners of leaf `l`, its anchor decoded once
@@ -394,17 +402,19 @@ impl Vertices {
             let pack = |l: usize| {
                 let c = corners8(l);
                 std::array::from_fn(|i| {
-                    let g = c[i];
-                    let key = (g[2] as u64) << (2 * cb) | (g[1] as u64) << cb | g[0] as u64;
+                    let g = c[i].map(|x| (x >> shift) as u64);
+                    let key = g[2] << (2 * cb) | g[1] << cb | g[0];
                     key << sb | (8 * l + i) as u64
                 })
             };
             group_slots(n, pack, |x| x >> sb, |x| (x & ((1 << sb) - 1)) as usize)
         } else {
-            // grid coordinates beyond 2^18 on some axis
+            // keys too wide for a u64 with the slot bits
             let pack = |l: usize| {
                 let c = corners8(l);
-                std::array::from_fn(|i| grid_key(c[i]) << 32 | (8 * l + i) as u128)
+                std::array::from_fn(|i| {
+                    grid_key(c[i].map(|x| x >> shift)) << 32 | (8 * l + i) as u128
+                })
             };
             group_slots(n, pack, |x| x >> 32, |x| x as u32 as usize)
         };
@@ -441,7 +451,8 @@ impl Vertices {
         // stable counting sorts on one coordinate at a time (least significant first): by x
         // then z gives (z, x, y), by y then x gives (x, y, z)
         let order0: Vec<u32> = group_id;
-        let sorted = |ids: &[u32], a: usize| counting_sort_by(ids, max_c, |p| grid[p as usize][a]);
+        let sorted =
+            |ids: &[u32], a: usize| counting_sort_by(ids, max_c, |p| grid[p as usize][a] >> shift);
         let (order1, order2) = rayon::join(
             || sorted(&sorted(&order0, 0), 2),
             || sorted(&sorted(&order0, 1), 0),

@@ -100,23 +100,42 @@ pub(crate) fn scatter(
 
 pub(crate) use octocut_surface::hash::mix;
 
-/// `ids` reordered by `key(id)` (at most `max_key`), keeping the given order among equal keys
-/// (counting sort, common practice; one histogram, one prefix sum, one scatter).
+/// `ids` reordered by `key(id)` (at most `max_key`), keeping the given order among equal keys:
+/// a least-significant-digit radix sort with 16-bit digits, each digit one stable counting
+/// sort (one histogram, one prefix sum, one scatter; common practice). The counts hold at most
+/// 65,536 entries whatever `max_key` is, and a key of up to 16 bits takes one pass, up to 32
+/// bits two.
+///
+/// ```ignore
+/// assert_eq!(counting_sort_by(&[0, 1, 2, 3], 70_000, |i| [70_000, 5, 70_000, 0][i as usize]),
+///            vec![3, 1, 0, 2]);
+/// ```
 pub(crate) fn counting_sort_by(ids: &[u32], max_key: u32, key: impl Fn(u32) -> u32) -> Vec<u32> {
-    let mut start = vec![0u32; max_key as usize + 2];
-    for &i in ids {
-        start[key(i) as usize + 1] += 1;
-    }
-    for k in 1..start.len() {
-        start[k] += start[k - 1];
-    }
+    const DIGIT: u32 = 16;
+    let bits = (u32::BITS - max_key.leading_zeros()).max(1);
+    let mut cur = ids.to_vec();
     let mut out = vec![0u32; ids.len()];
-    for &i in ids {
-        let s = &mut start[key(i) as usize];
-        out[*s as usize] = i;
-        *s += 1;
+    let mut shift = 0;
+    while shift < bits {
+        let width = (bits - shift).min(DIGIT);
+        let mask = (1u32 << width) - 1;
+        let digit = |i: u32| ((key(i) >> shift) & mask) as usize;
+        let mut start = vec![0u32; mask as usize + 2];
+        for &i in &cur {
+            start[digit(i) + 1] += 1;
+        }
+        for k in 1..start.len() {
+            start[k] += start[k - 1];
+        }
+        for &i in &cur {
+            let s = &mut start[digit(i)];
+            out[*s as usize] = i;
+            *s += 1;
+        }
+        std::mem::swap(&mut cur, &mut out);
+        shift += width;
     }
-    out
+    cur
 }
 
 #[cfg(test)]
@@ -153,11 +172,29 @@ mod tests {
 
     #[test]
     fn counting_sort_is_the_stable_sort() {
-        let ids: Vec<u32> = (0..1000u32).map(|i| (i * 7919) % 1000).collect();
-        let key = |i: u32| (mix(i as u64) % 37) as u32;
-        let mut want = ids.clone();
-        want.sort_by_key(|&i| key(i)); // std's sort_by_key is stable
-        assert_eq!(counting_sort_by(&ids, 36, key), want);
+        // reference: std's `sort_by_key`, documented as stable; keys of one digit, of two
+        // digits (above 2^16) and up to u32::MAX
+        let ids: Vec<u32> = (0..5000u32).map(|i| (i * 7919) % 5000).collect();
+        for max_key in [0u32, 1, 36, 65_535, 65_536, 3 << 20, u32::MAX - 1, u32::MAX] {
+            // few distinct keys (so stability is tested), spread over 0..=max_key: fractions
+            // of max_key and values just below it
+            let key = |i: u32| {
+                let k = (mix(i as u64) % 122) as u32;
+                if k % 2 == 0 {
+                    max_key / (1 + k / 2)
+                } else {
+                    max_key.saturating_sub(k / 2)
+                }
+            };
+            let mut want = ids.clone();
+            want.sort_by_key(|&i| key(i)); // std's sort_by_key is stable
+            assert!(ids.iter().all(|&i| key(i) <= max_key));
+            assert_eq!(
+                counting_sort_by(&ids, max_key, key),
+                want,
+                "max_key {max_key}"
+            );
+        }
     }
 
     #[test]
