@@ -2,8 +2,8 @@
 //! components are named by their first member (deterministic whatever the thread count), and
 //! [`gather_chunk`], the chunk size of the stage's gathered parallel maps, [`mix`] (the
 //! surface crate's hash) for the stage's small open-addressing tables, and
-//! [`counting_sort_by`], a stable counting sort of ids by a small integer key, and [`scatter`],
-//! parallel writes of distinct slots.
+//! [`counting_sort_by`], a stable sort of ids by an integer key (LSD radix sort, 16-bit
+//! digits), and [`scatter`], parallel writes of distinct slots.
 
 use rayon::prelude::*;
 
