@@ -9,6 +9,7 @@
 //! `[T_EPS, 1 - T_EPS]`, so a crossing never coincides with a grid vertex.
 
 use crate::classify::Touched;
+use crate::concat::filter_map_sized;
 use octocut_surface::crossing::{segment_crossing, CrossingMerge};
 use octocut_surface::{SegmentHit, Surface, SurfaceIndex, Vec3};
 use rayon::prelude::*;
@@ -143,10 +144,15 @@ impl EdgeHits {
     ) -> EdgeHits {
         // UNCROSSED sorts first: the first of equal keys carries the proof
         coded.par_sort_unstable();
-        coded.dedup_by_key(|x| x.0);
-        let keys: Vec<u64> = coded.iter().map(|x| x.0).collect();
-        let code: Vec<u32> = coded.iter().map(|x| x.1).collect();
+        crate::tmark("eh.sort");
+        // the first of each run of equal keys, split into keys and codes, in parallel
+        let first = |i: usize| i == 0 || coded[i - 1].0 != coded[i].0;
+        let (keys, code): (Vec<u64>, Vec<u32>) = rayon::join(
+            || filter_map_sized(coded.len(), |i| first(i).then(|| coded[i].0)),
+            || filter_map_sized(coded.len(), |i| first(i).then(|| coded[i].1)),
+        );
         drop(coded);
+        crate::tmark("eh.split");
         let s = index.surface();
         let parts: Vec<(Vec<u32>, Vec<SegmentHit>, Vec<i32>)> = keys
             .par_chunks(1024)
@@ -191,6 +197,7 @@ impl EdgeHits {
                 },
             )
             .collect();
+        crate::tmark("eh.hits");
         let mut off = Vec::with_capacity(keys.len() + 1);
         off.push(0u32);
         let mut hits = Vec::with_capacity(parts.iter().map(|p| p.1.len()).sum());
