@@ -537,7 +537,9 @@ fn group_slots<T: Ord + Copy + Default + Send + Sync + Into<u128>>(
             .collect();
         crate::concat::concat(&reps)
     };
+    crate::tmark("slots.blocks");
     all.par_sort_unstable();
+    crate::tmark("slots.sort");
     // group of every representative, in parallel: a position's group is the number of key
     // starts up to it, less one (runs of positions count their starts first); the flat
     // representative numbers go block after block
