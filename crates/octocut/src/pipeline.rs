@@ -361,18 +361,22 @@ impl Mesher {
             side_names: spec.side_names.clone(),
         };
         let cut = clock.run(hooks, Stage::Cut, "cells", || {
-            let regions: Vec<u16> = leaf_regions(&refined.tree, &rspec.regions)
-                .into_iter()
-                .map(|r| r.unwrap_or(NO_REGION))
-                .collect();
-            let mut out = cut_cells_with_regions(&refined.tree, &self.index, &opts, Some(&regions))
-                .map_err(|e| match e {
-                    octocut_cutcell::CutError::PointNotInFluid(_)
-                    | octocut_cutcell::CutError::PointOutsideDomain(_) => {
-                        MeshError::Config(e.to_string())
-                    }
-                    other => MeshError::Internal(other.to_string()),
-                })?;
+            // no per-leaf array without size regions (2 bytes a leaf through the cut stage)
+            let regions: Option<Vec<u16>> = (!rspec.regions.is_empty()).then(|| {
+                leaf_regions(&refined.tree, &rspec.regions)
+                    .into_iter()
+                    .map(|r| r.unwrap_or(NO_REGION))
+                    .collect()
+            });
+            let mut out =
+                cut_cells_with_regions(&refined.tree, &self.index, &opts, regions.as_deref())
+                    .map_err(|e| match e {
+                        octocut_cutcell::CutError::PointNotInFluid(_)
+                        | octocut_cutcell::CutError::PointOutsideDomain(_) => {
+                            MeshError::Config(e.to_string())
+                        }
+                        other => MeshError::Internal(other.to_string()),
+                    })?;
             out.mesh.region_names = rspec.regions.iter().map(|r| r.name.clone()).collect();
             let n = out.mesh.n_cells() as u64;
             Ok::<_, MeshError>((out, n))
