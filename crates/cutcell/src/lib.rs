@@ -634,8 +634,9 @@ pub fn cut_cells_with_regions(
                     map.push(leaf_cell[l as usize] + j);
                 }
             }
-            for &(p, is_e, pc) in &ch.poly_piece {
-                if is_e {
+            for &x in &ch.poly_piece {
+                let (p, pc) = (x.poly(), x.piece);
+                if x.is_e() {
                     poly_e[p as usize] = map[pc as usize];
                 } else {
                     poly_n[p as usize] = map[pc as usize];

@@ -54,14 +54,50 @@ impl Points<'_> {
     }
 }
 
+/// A polygon, the side of its face the closed leaf is on, and the piece it bounds: 8 bytes
+/// (the side in the polygon id's top bit; polygons have at least three of the fewer than
+/// 2^32 point slots of `Clip::poly_off`, so their ids stay below 2^31).
+///
+/// ```ignore
+/// let x = PolyPiece::new(7, true, 3);
+/// assert_eq!((x.poly(), x.is_e(), x.piece), (7, true, 3));
+/// ```
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct PolyPiece {
+    poly_side: u32,
+    pub piece: u32,
+}
+
+impl PolyPiece {
+    const E_SIDE: u32 = 1 << 31;
+    #[inline]
+    pub fn new(poly: u32, is_e: bool, piece: u32) -> PolyPiece {
+        assert!(poly < Self::E_SIDE, "polygon id {poly} above 2^31");
+        PolyPiece {
+            poly_side: poly | if is_e { Self::E_SIDE } else { 0 },
+            piece,
+        }
+    }
+    /// The global polygon id.
+    #[inline]
+    pub fn poly(self) -> u32 {
+        self.poly_side & !Self::E_SIDE
+    }
+    /// True when the closed leaf is the face's `e` side.
+    #[inline]
+    pub fn is_e(self) -> bool {
+        self.poly_side & Self::E_SIDE != 0
+    }
+}
+
 /// Output of closing a run of cut leaves.
 #[derive(Default)]
 pub(crate) struct CutChunk {
     /// Pieces per cut leaf, in leaf order.
     pub n_pieces: Vec<u32>,
     pub piece_volume: Vec<f64>,
-    /// (global polygon, leaf is the face's `e` side, piece index within the chunk)
-    pub poly_piece: Vec<(u32, bool, u32)>,
+    /// The piece (index within the chunk) each polygon of the closed leaves bounds.
+    pub poly_piece: Vec<PolyPiece>,
     pub wall_len: Vec<u32>,
     pub wall_pts: Vec<u32>,
     pub wall_piece: Vec<u32>,
@@ -264,7 +300,7 @@ impl CellCtx<'_> {
             }
             let pc = s.piece_of[root];
             let (p, is_e) = s.polys[i];
-            out.poly_piece.push((p, is_e, first + pc));
+            out.poly_piece.push(PolyPiece::new(p, is_e, first + pc));
             s.pos.clear();
             s.pos.extend(clip.poly(p).iter().map(|&q| self.pts.get(q)));
             let v = fan_volume(&s.pos, r);
